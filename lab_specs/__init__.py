@@ -1,0 +1,1 @@
+"""Lab spec files shipped with labcheck (TOML; see docs/spec.md)."""

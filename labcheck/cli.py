@@ -1,0 +1,278 @@
+"""The ``labcheck`` command: thin wiring over the library.
+
+Our own exceptions (a bad spec, a missing input, a full output folder) become
+a one-line message and exit status 2; anything else is a bug and keeps its
+traceback.  Exit status: 0 all graded; 1 graded with some submissions
+unreadable or missing; 2 usage or spec error (nothing graded).
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import shutil
+import sys
+from pathlib import Path
+
+from . import __version__
+from .batch import OutputExistsError, count_inputs, grade_section
+from .ingest import InputError, Limits, read_rows
+from .resources import shipped_spec, specs_dir
+from .spec import LabSpec, SpecError, load_spec
+
+EXAMPLES = {
+    "grade": "example:\n  labcheck grade horizon_dip submissions.zip --roster roster.csv --out graded/",
+    "check": "example:\n  labcheck check horizon_dip group07.csv",
+    "template": "examples:\n  labcheck template horizon_dip --out dip_lab.csv\n  labcheck template lab_specs/horizon_dip.toml --out dip_lab.xlsx",
+    "spec": "examples:\n  labcheck spec check my_lab.toml\n  labcheck spec list",
+    "demo": "example:\n  labcheck demo --out ~/labcheck-demo",
+}
+DEMO_MARKER = ".labcheck-demo"
+
+
+class _Colour:
+    def __init__(self, stream):
+        self.on = stream.isatty() and not os.environ.get("NO_COLOR") and os.environ.get("TERM") != "dumb"
+
+    def __call__(self, text: str, code: str) -> str:
+        return f"\033[{code}m{text}\033[0m" if self.on else text
+
+
+def _resolve_spec(name: str) -> LabSpec:
+    """Load a spec by path, or by the id of a shipped spec (``horizon_dip``)."""
+    p = Path(name)
+    if not p.exists() and not p.suffix:
+        shipped = shipped_spec(name)
+        if shipped.exists():
+            p = shipped
+        else:
+            known = ", ".join(sorted(f.stem for f in specs_dir().glob("*.toml")))
+            raise SpecError(name, [("", f"no such file, and no shipped lab with this id (shipped: {known})")])
+    return load_spec(p)
+
+
+def _progress(total: int, stream):
+    if not stream.isatty() or total < 2:
+        return None
+    width = 30
+
+    def show(i: int, name: str) -> None:
+        done = min(i, total)
+        fill = int(width * done / total)
+        label = name[-40:]
+        stream.write(f"\r[{'#' * fill}{'.' * (width - fill)}] {done}/{total} {label:<40}")
+        if done >= total:
+            stream.write("\n")
+        stream.flush()
+
+    return show
+
+
+def cmd_grade(args) -> int:
+    spec = _resolve_spec(args.spec)
+    total = count_inputs(args.inputs) if all(Path(i).exists() for i in args.inputs) else 0
+    progress = None if args.quiet else _progress(total, sys.stderr)
+    run = grade_section(spec, args.inputs, args.out, args.roster, force=args.force, progress=progress)
+    if progress and total:
+        sys.stderr.write("\n")
+    _print_summary(run, spec, Path(args.out))
+    return run.exit_code
+
+
+def _print_summary(run, spec: LabSpec, out: Path) -> None:
+    c = _Colour(sys.stdout)
+    print(f"{spec.title}")
+    line = f"  graded {run.n_graded} of {run.n_files} files"
+    print(c(line, "32") if run.n_graded == run.n_files else line)
+    if run.mean_percent is not None:
+        print(f"  mean score {run.mean_percent:.0f} %; {run.n_pass} of {run.n_graded} at or above the pass mark ({spec.pass_fraction:.0%})")
+    if run.n_unreadable:
+        print(c(f"  {run.n_unreadable} unreadable file(s): reasons in section.html and results.json", "33"))
+    if run.n_missing:
+        print(c(f"  {run.n_missing} student(s) on the roster with no submission", "33"))
+    if run.n_unmatched:
+        print(c(f"  {run.n_unmatched} submission(s) whose student_id is not on the roster", "33"))
+    if run.n_skipped:
+        print(f"  {run.n_skipped} clutter file(s) passed over (listed in results.json)")
+    if run.internal_errors:
+        print(c(f"  {len(run.internal_errors)} file(s) hit a labcheck bug; details on stderr", "31"))
+        for err in run.internal_errors:
+            print(err, file=sys.stderr)
+    print(f"  section summary: {out / 'section.html'}")
+    print(f"  feedback sheets: {out / 'feedback'}{os.sep}")
+    print(f"  gradebook:       {out / 'gradebook.csv'}")
+    print(f"  all results:     {out / 'results.json'}")
+    print("  Grades are advisory: review them before they count.")
+
+
+def cmd_check(args) -> int:
+    from .grading import grade_submission
+    from .submission import normalise
+
+    spec = _resolve_spec(args.spec)
+    p = Path(args.file)
+    if not p.is_file():
+        raise InputError(f"{p}: no such file")
+    limits = Limits()
+    if p.stat().st_size > limits.max_file_bytes:
+        print(f"{p.name}: unreadable: file too large", file=sys.stderr)
+        return 1
+    raw = read_rows(p.read_bytes(), p.name, limits)
+    if raw.error:
+        print(f"{p.name}: unreadable: {raw.error}")
+        return 1
+    record = grade_submission(normalise(raw, spec), spec)
+    c = _Colour(sys.stdout)
+    colours = {"correct": "32", "carried": "33", "wrong": "31", "missing": "90"}
+    print(f"{spec.title}: {p.name}  ({record['name'] or '?'}, {record['student_id'] or 'no student_id'})")
+    for f in record["flags"]:
+        print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
+    from .render import fmt_number
+
+    head = f"  {'step':<32} {'recomputed':>14} {'yours':>14}  {'verdict':<16} {'points':>7}"
+    print(head)
+    print("  " + "-" * (len(head) - 2))
+    for s in record["steps"]:
+        exp = f"{fmt_number(s['expected'])} {s['unit']}" if s["expected"] is not None else "—"
+        rep = f"{fmt_number(s['reported'])} {s['unit']}" if s["reported"] is not None else "—"
+        verdict = c(f"{s['verdict']:<16}", colours[s["verdict"]])
+        print(f"  {s['id']:<32} {exp:>14} {rep:>14}  {verdict} {s['points']:>3g}/{s['max_points']:<3g}")
+        if s["diagnosis"]:
+            print(f"      likely cause: {s['diagnosis']['label']}: {s['diagnosis']['text']}")
+        elif s["verdict"] in ("wrong", "carried"):
+            print(f"      {s['explanation']}")
+    for mid, acc in record["accuracy"].items():
+        print(f"  accuracy ({mid}): {acc['explanation']} {acc['points']:g}/{acc['max_points']:g}")
+    print(f"  score {record['score']:g} / {record['max_score']:g} (advisory)")
+    return 0
+
+
+def cmd_template(args) -> int:
+    from .template import write_template
+
+    spec = _resolve_spec(args.spec)
+    out = Path(args.out)
+    if out.exists() and not args.force:
+        raise OutputExistsError(f"{out} exists; add --force to replace it")
+    if out.suffix.lower() not in (".csv", ".xlsx"):
+        raise InputError(f"{out}: the template's name must end in .csv or .xlsx")
+    write_template(spec, out)
+    print(f"wrote {out}: the blank template for {spec.title}")
+    return 0
+
+
+def cmd_spec(args) -> int:
+    if args.action == "list":
+        for f in sorted(specs_dir().glob("*.toml")):
+            spec = load_spec(f)
+            print(f"{f.stem:<20} {spec.title}")
+        print(f"(shipped in {specs_dir()}; copy one to make your own)")
+        return 0
+    if not args.file:
+        raise InputError("labcheck spec check needs a FILE")
+    spec = _resolve_spec(args.file)
+    print(f"{spec.path}: valid lab spec {spec.id!r}: {spec.title}")
+    for rule in spec.steps.values():
+        print(f"  step {rule.key:<32} {rule.points:>4g} points, tolerance {rule.tolerance.text}")
+    print(f"  accuracy: {spec.accuracy.points:g} points per method, {spec.accuracy.text}")
+    return 0
+
+
+def cmd_demo(args) -> int:
+    from .demo import build_demo
+
+    out = Path(args.out)
+    if out.exists() and any(out.iterdir()):
+        if (out / DEMO_MARKER).exists() or args.force:
+            for name in ("graded", "section_B_submissions.zip", "roster.csv"):
+                target = out / name
+                if target.is_dir():
+                    shutil.rmtree(target)
+                elif target.exists():
+                    target.unlink()
+        else:
+            raise OutputExistsError(f"{out} is not empty and is not an earlier demo; choose another --out or add --force")
+    out.mkdir(parents=True, exist_ok=True)
+    (out / DEMO_MARKER).write_text("made by labcheck demo; safe to delete\n", encoding="utf-8")
+    zip_path, roster = build_demo(out)
+    spec = load_spec(shipped_spec("horizon_dip"))
+    print(f"Demo: an invented section of 24 groups, {zip_path.name} with roster {roster.name}")
+    total = count_inputs([zip_path])
+    progress = None if args.quiet else _progress(total, sys.stderr)
+    run = grade_section(spec, [zip_path], out / "graded", roster, force=True, progress=progress)
+    _print_summary(run, spec, out / "graded")
+    print("  (the demo plants an unreadable file and a student with no submission: exit status 1 is expected)")
+    return run.exit_code
+
+
+def build_parser() -> argparse.ArgumentParser:
+    fmt = argparse.RawDescriptionHelpFormatter
+    parser = argparse.ArgumentParser(
+        prog="labcheck",
+        description="Recompute and grade field-lab reductions of the Earth's figure, one feedback sheet per student.",
+        epilog="Start with:  labcheck demo\nSPEC is a lab spec file or the id of a shipped one (labcheck spec list).",
+        formatter_class=fmt,
+    )
+    parser.add_argument("--version", action="version", version=f"labcheck {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+
+    p = sub.add_parser("grade", help="grade a section's submissions", epilog=EXAMPLES["grade"], formatter_class=fmt,
+                       description="Grade every submission (CSV/XLSX files, folders, LMS zip exports) and write "
+                                   "results.json, gradebook.csv, section.html and feedback/<student_id>.html.")
+    p.add_argument("spec", metavar="SPEC", help="lab spec file or shipped lab id")
+    p.add_argument("inputs", metavar="INPUT", nargs="+", help="submission file, folder or zip")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder (must be empty unless --force)")
+    p.add_argument("--roster", metavar="FILE", help="roster CSV with student_id and name, to list missing students")
+    p.add_argument("--force", action="store_true", help="replace labcheck's earlier outputs in DIR")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=cmd_grade)
+
+    p = sub.add_parser("check", help="grade one submission and show a table here", epilog=EXAMPLES["check"],
+                       formatter_class=fmt, description="Grade one submission file and print its steps; writes nothing.")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("file", metavar="FILE")
+    p.set_defaults(func=cmd_check)
+
+    p = sub.add_parser("template", help="write the blank student template", epilog=EXAMPLES["template"],
+                       formatter_class=fmt, description="Write the blank template students fill in: CSV, or XLSX when FILE ends in .xlsx.")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("--out", required=True, metavar="FILE")
+    p.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    p.set_defaults(func=cmd_template)
+
+    p = sub.add_parser("spec", help="check a lab spec, or list the shipped ones", epilog=EXAMPLES["spec"],
+                       formatter_class=fmt, description="Validate a lab spec file and explain any error, or list the shipped specs.")
+    p.add_argument("action", choices=("check", "list"))
+    p.add_argument("file", nargs="?", metavar="FILE")
+    p.set_defaults(func=cmd_spec)
+
+    p = sub.add_parser("demo", help="build and grade the bundled demo section", epilog=EXAMPLES["demo"],
+                       formatter_class=fmt, description="Generate an invented section (seeded: the same every time), grade it, and say where the sheets are.")
+    p.add_argument("--out", default="labcheck-demo", metavar="DIR", help="folder for the demo (default: ./labcheck-demo)")
+    p.add_argument("--force", action="store_true", help="use DIR even if it holds other files")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=cmd_demo)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help()
+        return 2
+    try:
+        return args.func(args)
+    except SpecError as exc:
+        print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
+        return 2
+    except (InputError, OutputExistsError) as exc:
+        print(f"labcheck: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("labcheck: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,228 @@
+"""The bundled demo: an invented section of the dip lab, with planted mistakes.
+
+Scenario (all invented): the course "Field Methods in Geodesy", section B,
+observes from the stations on Harrowby Bluff over Tamsin Sound.  Groups
+measure the dip of the sea horizon with a sextant or a theodolite, and the
+hidden height of the light tower on Quillan Skerry across the sound.
+
+Each group's data are generated from a true radius (IUGG mean radius), the
+group's own eye height and distance, and that day's coefficient of
+refraction, then read with realistic instrument noise.  Groups reduce their
+own data with the rounding a student would use; a few make planted
+mistakes.  The random generator is seeded: the same demo every time.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import zipfile
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from .reductions import horizon as hz
+
+__all__ = ["PLANTED", "build_demo", "demo_section"]
+
+TRUE_RADIUS_M = 6371008.8  # IUGG mean radius R1 (Moritz, GRS80)
+SEED = 20261201
+SPEC_K = 0.13  # the k the spec tells students to use
+
+STATIONS = [
+    ("Wren Station", 14.2), ("Osier Station", 19.6), ("Lantern Steps", 23.1),
+    ("Gorse Knoll", 27.8), ("Upper Harrowby", 33.4), ("Saltmark Post", 11.7),
+]
+FIRST = ["Amara", "Bexley", "Corin", "Dalia", "Emrys", "Fenna", "Galen", "Hester", "Idris", "Juno",
+         "Kestrel", "Linnea", "Marek", "Noor", "Orla", "Piet", "Quilla", "Rafferty", "Sabine", "Tobiah",
+         "Ulla", "Vesna", "Wynn", "Xanthe", "Yorick"]
+LAST = ["Ashgrove", "Brindlemoor", "Caskwell", "Dunmarrow", "Eldervane", "Fallowby", "Greythorn",
+        "Hollinsworth", "Ivesdale", "Jessamy", "Kettleburn", "Larkspur", "Mossfield", "Nettlecombe",
+        "Oakhurst", "Pennyroyal", "Quarrendon", "Rushmere", "Sallowfield", "Thistlewood", "Umberleigh",
+        "Varrow", "Whinfell", "Yarrowby", "Zennor"]
+
+# Planted mistakes by group number, and what labcheck must find.
+PLANTED = {
+    3: ("refraction_ignored", "dip.radius"),
+    6: ("feet_as_metres", "dip.radius_apparent"),
+    9: ("dip_mean_slip", "dip_mean"),  # transposed digits, carried forward downstream
+    12: ("missing_result", "hidden_height.radius"),
+    15: ("unreadable", None),
+    18: ("missing_factor_two", "hidden_height.radius_apparent"),
+    21: ("degrees_as_radians", "dip.radius_apparent"),
+    22: ("bad_row", "dip_angle"),
+}
+MISSING_STUDENT = ("b2150-025", "Yorick Zennor")  # on the roster, no submission
+
+
+@dataclass
+class DemoGroup:
+    number: int
+    student_id: str
+    name: str
+    fmt: str  # "csv" or "xlsx"
+    rows: list[tuple[str, str, str, str, str]] = field(default_factory=list)
+
+
+def _r(x: float, nd: int) -> str:
+    return f"{x:.{nd}f}"
+
+
+def _sig(x: float, digits: int = 4) -> float:
+    """Round to ``digits`` significant figures, as a student copying a calculator would."""
+    if x == 0:
+        return 0.0
+    return round(x, digits - 1 - math.floor(math.log10(abs(x))))
+
+
+def _g(x: float) -> str:
+    return f"{x:.10g}"
+
+
+def _dms(angle_deg: float) -> str:
+    total = round(abs(angle_deg) * 3600)
+    d, rem = divmod(total, 3600)
+    m, s = divmod(rem, 60)
+    return f"{'-' if angle_deg < 0 else ''}{d} {m:02d} {s:02d}"
+
+
+def demo_section() -> list[DemoGroup]:
+    """Generate the section's groups (rows only; nothing is written)."""
+    rng = np.random.default_rng(SEED)
+    groups = []
+    for g in range(1, 25):
+        sid = f"b2150-{g:03d}"
+        name = f"{FIRST[g - 1]} {LAST[g - 1]}"
+        station, height = STATIONS[(g - 1) % len(STATIONS)]
+        fmt = "xlsx" if g % 4 == 0 or g == 15 else "csv"
+        group = DemoGroup(g, sid, name, fmt)
+        rows = group.rows
+        rows += [
+            ("identity", "student_id", sid, "", ""),
+            ("identity", "name", name, "", ""),
+            ("identity", "group", f"B{g:02d}", "", ""),
+            ("identity", "date", f"2026-09-{8 + (g % 3):02d}", "", ""),
+            ("identity", "site", f"{station}, Harrowby Bluff", "", "=1+1 <b>check with TA</b> & redo?" if g == 5 else ""),
+        ]
+        k_true = float(np.clip(rng.normal(0.14, 0.025), 0.06, 0.22))
+        r_eff = TRUE_RADIUS_M / (1.0 - k_true)
+        h_true = height + rng.normal(0, 0.3)  # tide and where each group stood
+        h_meas = round(h_true + rng.normal(0, 0.05), 2)
+        does_dip = g % 8 != 7
+        does_hidden = g % 8 != 5
+
+        if g == 6:  # planted: eye height recorded in feet
+            rows.append(("observation", "eye_height", _r(h_meas / 0.3048, 1), "ft", "tape from the benchmark, in feet"))
+            h_used_by_student = round(h_meas / 0.3048, 1)  # used as if metres
+        else:
+            rows.append(("observation", "eye_height", _r(h_meas, 2), "m", ""))
+            h_used_by_student = h_meas
+        h_for_student = h_meas
+
+        rep: list[tuple[str, str, str, str, str]] = []
+        if does_dip:
+            dip_true = math.acos(r_eff / (r_eff + h_true))  # apparent (refracted) dip
+            n = 6 if g % 5 == 0 else 5
+            readings = dip_true + rng.normal(0, math.radians(20 / 3600), n)
+            theodolite = g % 3 == 0
+            texts = []
+            for i, d in enumerate(readings):
+                if theodolite:
+                    rows.append(("observation", "horizon_zenith_angle", _dms(90 + math.degrees(d)), "dms", ""))
+                    texts.append(round(round((math.degrees(d)) * 3600) / 60, 6))
+                else:
+                    val = round(math.degrees(d) * 60, 1)
+                    if g == 22 and i == 2:  # planted: a misread row
+                        rows.append(("observation", "dip_angle", "5.7.2", "arcmin", "wind shook the index"))
+                        continue
+                    rows.append(("observation", "dip_angle", _r(val, 1), "arcmin", ""))
+                    texts.append(val)
+            dip_mean = round(float(np.mean(texts)), 2)
+            if g == 9:  # planted: digits transposed when copying the mean
+                s = f"{dip_mean:.2f}"
+                dip_mean = float(s[:-2] + s[-1] + s[-2])
+            rep.append(("result", "dip_mean", _r(dip_mean, 2), "arcmin", ""))
+            d_rad = math.radians(dip_mean / 60)
+            if g == 6:
+                r_app = float(hz.radius_from_dip(h_used_by_student, d_rad))
+            elif g == 21:  # planted: calculator in radian mode
+                r_app = float(hz.radius_from_dip(h_for_student, math.degrees(d_rad)))
+            else:
+                r_app = float(hz.radius_from_dip(h_for_student, d_rad))
+            r_app_km = _sig(r_app / 1000)
+            rep.append(("result", "dip.radius_apparent", _g(r_app_km), "km", ""))
+            radius_km = r_app_km if g == 3 else _sig((1 - SPEC_K) * r_app_km)
+            rep.append(("result", "dip.radius", _g(radius_km), "km", ""))
+            err = round(100 * (radius_km * 1000 - TRUE_RADIUS_M) / TRUE_RADIUS_M, 2)
+            rep.append(("result", "dip.radius_error_pct", _r(err, 2), "%", ""))
+
+        if does_hidden:
+            horizon_eye = math.sqrt(2 * r_eff * h_true)
+            distance = horizon_eye + rng.uniform(2500, 9000)
+            hidden_true = (distance - horizon_eye) ** 2 / (2 * r_eff)
+            d_meas = round((distance + rng.normal(0, 20)) / 1000, 2)
+            x_meas = round(max(hidden_true + rng.normal(0, 0.2), 0.1), 1)
+            rows.append(("observation", "target_distance", _r(d_meas, 2), "km", "from the chart"))
+            rows.append(("observation", "hidden_height", _r(x_meas, 1), "m", "courses of the tower counted"))
+            if g == 18:  # planted: factor 2 forgotten
+                r_app = (d_meas * 1000) ** 2 / (math.sqrt(h_used_by_student) + math.sqrt(x_meas)) ** 2
+            else:
+                r_app = float(hz.radius_from_hidden_height(d_meas * 1000, h_used_by_student, x_meas))
+            r_app_km = _sig(r_app / 1000)
+            rep.append(("result", "hidden_height.radius_apparent", _g(r_app_km), "km", ""))
+            radius_km = _sig((1 - SPEC_K) * r_app_km)
+            if g != 12:  # planted: result left out
+                rep.append(("result", "hidden_height.radius", _g(radius_km), "km", ""))
+            err = round(100 * (radius_km * 1000 - TRUE_RADIUS_M) / TRUE_RADIUS_M, 2)
+            rep.append(("result", "hidden_height.radius_error_pct", _r(err, 2), "%", ""))
+
+        rows += rep
+        groups.append(group)
+    return groups
+
+
+def _csv_bytes(rows) -> bytes:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["part", "item", "value", "unit", "note"])
+    w.writerows(rows)
+    return buf.getvalue().encode("utf-8")
+
+
+def _xlsx_bytes(rows) -> bytes:
+    import openpyxl
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.append(["part", "item", "value", "unit", "note"])
+    for r in rows:
+        ws.append(list(r))
+    buf = io.BytesIO()
+    wb.save(buf)
+    return buf.getvalue()
+
+
+def build_demo(folder: Path) -> tuple[Path, Path]:
+    """Write the demo's LMS-style zip export and roster into ``folder``; return their paths."""
+    folder.mkdir(parents=True, exist_ok=True)
+    groups = demo_section()
+    zip_path = folder / "section_B_submissions.zip"
+    with zipfile.ZipFile(zip_path, "w", zipfile.ZIP_DEFLATED) as z:
+        for grp in groups:
+            member = f"GEOD2150-B_horizon_dip/{grp.name.replace(' ', '_')}_{grp.student_id}/dip_lab_B{grp.number:02d}.{grp.fmt}"
+            if grp.number == 15:  # planted: a workbook damaged in upload
+                data = _xlsx_bytes(grp.rows)[: 700]
+            else:
+                data = _xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else _csv_bytes(grp.rows)
+            z.writestr(member, data)
+        z.writestr("__MACOSX/GEOD2150-B_horizon_dip/._dip_lab_B01.csv", b"\x00\x05\x16\x07")
+    roster_path = folder / "roster.csv"
+    with open(roster_path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["student_id", "name"])
+        for grp in groups:
+            w.writerow([grp.student_id, grp.name])
+        w.writerow(MISSING_STUDENT)
+    return zip_path, roster_path

@@ -1,0 +1,497 @@
+"""Grade one normalised submission against a lab spec.
+
+For every step of every graded method:
+
+* ``expected``: the step recomputed from the group's own observations, with
+  the *recomputed* values of earlier steps;
+* ``own``: the same step recomputed from the group's own *reported* values of
+  earlier steps (where they reported them);
+* the verdict: ``correct`` when the reported value matches ``expected``
+  within the step's computation tolerance (or matches ``own`` when every
+  earlier step it uses was itself correct: rounding of correct values);
+  ``carried`` when it is wrong but matches ``own`` after an earlier mistake
+  (error carried forward, ``carried_fraction`` of the points); ``missing``
+  when nothing usable was reported or nothing can be checked; else ``wrong``,
+  with a diagnosis when one of the step's known mistakes (or a generic unit
+  slip) reproduces the value within the tolerance.  Nothing is guessed.
+
+Accuracy judges the radius recomputed from the group's own observations
+(their field work, not their arithmetic) against the reference.
+
+The result is a plain dict, ready for ``results.json``: values in the step's
+display unit.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from .methods import Method, Step
+from .spec import LabSpec, StepRule
+from .submission import Submission
+from .units import format_value, from_si
+
+__all__ = ["grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
+
+
+@dataclass(frozen=True)
+class Slip:
+    """A generic slip: the reported value is ``factor`` times the right one."""
+
+    id: str
+    factor: float
+    label: str
+    explanation: str
+
+
+_FT = 0.3048
+GENERIC_SLIPS: dict[str, tuple[Slip, ...]] = {
+    "length": (
+        Slip("metres_for_km", 1000.0, "metres written where kilometres are asked",
+             "Your value is 1000 times the right one: it looks like metres written where the unit is km."),
+        Slip("km_for_metres", 0.001, "kilometres written where metres are asked",
+             "Your value is 1/1000 of the right one: it looks like km written where the unit is m."),
+        Slip("feet_for_metres", 1.0 / _FT, "a value in feet written as metres",
+             "Your value is 3.28 times the right one: a length in feet was written as metres (1 ft = 0.3048 m)."),
+        Slip("metres_for_feet", _FT, "a value in metres multiplied by 0.3048",
+             "Your value is 0.3048 times the right one: a length already in metres was converted as if it were feet."),
+        Slip("miles_for_km", 1000.0 / 1609.344, "a value in statute miles written as km",
+             "Your value is the right one divided by 1.609: statute miles written as kilometres."),
+        Slip("nmi_for_km", 1000.0 / 1852.0, "a value in nautical miles written as km",
+             "Your value is the right one divided by 1.852: nautical miles written as kilometres."),
+    ),
+    "angle": (
+        Slip("degrees_for_arcmin", 1.0 / 60.0, "degrees written where arcminutes are asked",
+             "Your value is 1/60 of the right one: degrees written where the unit is arcminutes."),
+        Slip("arcmin_for_degrees", 60.0, "arcminutes written where degrees are asked",
+             "Your value is 60 times the right one: arcminutes written where the unit is degrees."),
+        Slip("radians_for_degrees", math.pi / 180.0, "radians written where degrees are asked",
+             "Your value is the right one in radians, written where degrees are asked."),
+        Slip("degrees_for_radians", 180.0 / math.pi, "degrees written where radians are asked",
+             "Your value is the right one in degrees, written where radians are asked."),
+    ),
+    "any": (
+        Slip("sign_flipped", -1.0, "sign reversed", "Your value has the right size but the wrong sign."),
+        Slip("doubled", 2.0, "twice the right value", "Your value is twice the right one: a factor 2 slipped in."),
+        Slip("halved", 0.5, "half the right value", "Your value is half the right one: a factor 2 was lost."),
+    ),
+}
+
+_SAFE_ID = re.compile(r"[^A-Za-z0-9_.-]+")
+
+
+def safe_id(text: str) -> str:
+    """A file-name-safe id: letters, digits, ``_ . -`` only, no leading dot."""
+    s = _SAFE_ID.sub("_", text.strip()).strip("._") or "unnamed"
+    return s[:80]
+
+
+def _f(x) -> float | None:
+    """A finite float, or None."""
+    if x is None:
+        return None
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _evaluate(step: Step, inputs: dict) -> float | None:
+    with np.errstate(all="ignore"):
+        try:
+            return _f(step.evaluate(inputs))
+        except (ValueError, ZeroDivisionError, OverflowError):
+            return None
+
+
+def _display(value_si: float | None, rule_unit: str, kind: str) -> float | None:
+    if value_si is None:
+        return None
+    return float(from_si(value_si, rule_unit, kind)) if kind not in ("percent", "ratio") else value_si
+
+
+def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
+    """Observation name -> SI value (array for repeated ones); and name -> reason it is missing."""
+    values: dict = {}
+    missing: dict[str, str] = {}
+    used: dict[str, tuple[str, list]] = {}
+    notes: list[str] = []
+    for o in method.observations:
+        found = None
+        for key in (f"{method.id}.{o.name}", o.name):
+            if sub.observations.get(key):
+                found = (key, sub.observations[key], None)
+                break
+        if found is None:
+            for alt in o.alternatives:
+                for key in (f"{method.id}.{alt.name}", alt.name):
+                    if sub.observations.get(key):
+                        found = (key, sub.observations[key], alt.transform)
+                        break
+                if found:
+                    break
+        if found is None:
+            tried = [o.name] + [a.name for a in o.alternatives]
+            bad = [k for k in sub.bad_items if k.split(".")[-1] in tried]
+            reason = (
+                f"{o.label} ({o.name}): the row(s) given could not be read (see the notes on your rows)"
+                if bad
+                else f"{o.label} ({o.name}) was not given"
+            )
+            missing[o.name] = reason
+            continue
+        key, readings, transform = found
+        arr = np.array([r.si for r in readings], dtype=float)
+        if transform is not None:
+            arr = np.asarray(transform(arr), dtype=float)
+        if o.repeated:
+            values[o.name] = arr
+        else:
+            values[o.name] = float(arr.mean())
+            if len(arr) > 1:
+                notes.append(
+                    f"{o.label}: {len(arr)} values were given; their mean "
+                    f"{format_value(values[o.name], spec.observations[o.name].unit, o.kind)} is used."
+                )
+        used[o.name] = (key, readings)
+    return values, missing, used, notes
+
+
+def _tolerance_text(rule: StepRule) -> str:
+    return rule.tolerance.text
+
+
+def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, own_inputs: dict | None,
+              expected: float | None, own: float | None) -> dict | None:
+    """Name the known mistake that reproduces ``reported`` within tolerance, or None."""
+    step = rule.step
+    tol = rule.tolerance
+    bases = [("ref", ref_inputs, expected)]
+    if own_inputs is not None:
+        bases.append(("own", own_inputs, own))
+    for variant in step.variants:
+        for _, inputs, correct in bases:
+            if any(n not in inputs for n in step.inputs):
+                continue
+            with np.errstate(all="ignore"):
+                try:
+                    value = _f(variant.compute(step, inputs))
+                except (ValueError, ZeroDivisionError, OverflowError):
+                    value = None
+            # Name a mistake only when it is told apart from the right value on the same inputs.
+            if value is not None and tol.matches(reported, value) and not (
+                correct is not None and tol.matches(value, correct)
+            ):
+                return {
+                    "id": variant.id,
+                    "label": variant.label,
+                    "text": spec.mistakes.get(variant.id, variant.explanation),
+                }
+    for slip in GENERIC_SLIPS.get(step.kind, ()) + GENERIC_SLIPS["any"]:
+        for _, _, target in bases:
+            if target is None or target == 0:
+                continue
+            if tol.matches(reported, target * slip.factor):
+                return {"id": slip.id, "label": slip.label, "text": spec.mistakes.get(slip.id, slip.explanation)}
+    return None
+
+
+def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[str]]:
+    obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
+    consts = spec.constants_si
+    expected: dict[str, float | None] = {}
+    why_missing: dict[str, str] = {}
+    verdicts: dict[str, str] = {}
+    reported_si: dict[str, float] = {}
+    step_ids = set(method.step_ids)
+    records = []
+
+    for rule in spec.steps_of(method):
+        step = rule.step
+        # Inputs from the recomputation.
+        ref_inputs: dict = {}
+        reasons = []
+        for name in step.inputs:
+            if name in step_ids:
+                if expected.get(name) is not None:
+                    ref_inputs[name] = expected[name]
+                else:
+                    reasons.append(why_missing.get(name, f"step {name} could not be recomputed"))
+            elif name in consts:
+                ref_inputs[name] = consts[name]
+            elif name in obs:
+                ref_inputs[name] = obs[name]
+            else:
+                reasons.append(missing_obs.get(name, f"{name} was not given"))
+        exp = _evaluate(step, ref_inputs) if not reasons else None
+        if not reasons and exp is None:
+            reasons.append("the recomputation has no finite value for these inputs (check your observations)")
+        expected[step.id] = exp
+        if reasons:
+            why_missing[step.id] = "; ".join(dict.fromkeys(reasons))
+
+        # Inputs from the student's own reported upstream values.
+        upstream = method.upstream_steps(step)
+        own_inputs = None
+        own = None
+        if any(u in reported_si for u in upstream):
+            own_inputs = dict(ref_inputs)
+            ok = True
+            for u in upstream:
+                if u in reported_si:
+                    own_inputs[u] = reported_si[u]
+                elif u not in own_inputs:
+                    ok = False
+            for name in step.inputs:
+                if name not in own_inputs:
+                    ok = False
+            own = _evaluate(step, own_inputs) if ok else None
+            if not ok:
+                own_inputs = None
+
+        rep = sub.results.get(rule.key)
+        tol = rule.tolerance
+        max_points = rule.points
+        diagnosis = None
+        if rep is not None:
+            reported_si[step.id] = rep.si
+        if rep is None:
+            verdict = "missing"
+            if rule.key in sub.bad_items:
+                explanation = "Your value could not be read (see the notes on your rows)."
+            else:
+                explanation = "Not reported."
+        elif exp is not None and tol.matches(rep.si, exp):
+            verdict = "correct"
+            explanation = f"Matches the value recomputed from your observations (tolerance {tol.text})."
+        elif own is not None and tol.matches(rep.si, own):
+            wrong_upstream = [u for u in upstream if verdicts.get(u) != "correct"]
+            if not wrong_upstream and exp is not None:
+                verdict = "correct"
+                explanation = (
+                    f"Follows from your own earlier values, which were correct within their tolerance "
+                    f"(tolerance {tol.text})."
+                )
+            else:
+                verdict = "carried"
+                names = ", ".join(method.step(u).label for u in wrong_upstream)
+                explanation = (
+                    f"Differs from the recomputed value, but follows correctly from your own value of {names}: "
+                    f"error carried forward."
+                )
+        elif exp is None:
+            verdict = "missing"
+            explanation = f"Cannot be checked: {why_missing.get(step.id, 'inputs missing')}."
+        else:
+            verdict = "wrong"
+            target = exp
+            diff = rep.si - target
+            diff_text = format_value(abs(diff), rule.unit, step.kind, 3)
+            rel_pct = abs(diff) / abs(target) * 100 if target else None
+            rel = "" if rel_pct is None else f" ({rel_pct:.0f} %)" if rel_pct >= 10 else f" ({rel_pct:.2g} %)"
+            explanation = f"Differs from the recomputed value by {diff_text}{rel}; the tolerance is {tol.text}."
+            diagnosis = _diagnose(rule, spec, rep.si, ref_inputs, own_inputs, exp, own)
+            if diagnosis is None:
+                explanation += (
+                    " No known mistake reproduces your value: compare your working with the formula "
+                    "and the inputs shown."
+                )
+        verdicts[step.id] = verdict
+        points = max_points if verdict == "correct" else max_points * spec.carried_fraction if verdict == "carried" else 0.0
+
+        show_own = own is not None and (exp is None or not tol.matches(own, exp))
+        inputs_shown = []
+        for name in step.inputs:
+            entry = {"name": name}
+            if name in step_ids:
+                s2 = method.step(name)
+                r2 = spec.steps[spec.step_key(method.id, name)]
+                entry.update(label=s2.label, origin="earlier step",
+                             value=format_value(expected.get(name), r2.unit, s2.kind),
+                             yours=format_value(reported_si[name], r2.unit, s2.kind) if name in reported_si else None)
+            elif name in consts:
+                entry.update(label=next(c.label for c in method.constants if c.name == name), origin="constant",
+                             value=spec.constants_text[name], yours=None)
+            else:
+                o = method.observation(name)
+                unit = spec.observations[name].unit
+                val = obs.get(name)
+                if val is None:
+                    text = "missing"
+                elif np.ndim(val):
+                    text = f"{len(val)} readings"
+                else:
+                    text = format_value(val, unit, o.kind)
+                entry.update(label=o.label, origin="observation", value=text, yours=None)
+            inputs_shown.append(entry)
+
+        records.append({
+            "id": rule.key,
+            "method": method.id,
+            "step": step.id,
+            "label": step.label,
+            "unit": rule.unit,
+            "formula": step.formula,
+            "source": step.source,
+            "inputs": inputs_shown,
+            "expected": _display(exp, rule.unit, step.kind),
+            "reported": _display(rep.si, rule.unit, step.kind) if rep is not None else None,
+            "reported_as": f"{rep.text} {rep.unit}".strip() if rep is not None else None,
+            "reported_row": rep.row if rep is not None else None,
+            "carried_expected": _display(own, rule.unit, step.kind) if show_own else None,
+            "tolerance": _tolerance_text(rule),
+            "verdict": verdict,
+            "points": round(points, 3),
+            "max_points": max_points,
+            "diagnosis": diagnosis,
+            "explanation": explanation,
+        })
+
+    # Accuracy: the recomputed result against the reference.
+    result_rule = spec.steps[spec.step_key(method.id, method.result_step)]
+    ref = consts["reference_radius"]
+    value = expected.get(method.result_step)
+    acc = spec.accuracy
+    if value is None:
+        frac = 0.0
+        acc_text = f"Cannot be judged: {why_missing.get(method.result_step, 'the radius could not be recomputed')}."
+        err_pct = None
+    else:
+        frac = acc.score_fraction(value, ref)
+        err_pct = 100.0 * (value - ref) / ref
+        acc_text = (
+            f"Your observations give {format_value(value, result_rule.unit, 'length', 5)}, "
+            f"{abs(err_pct):.1f} % {'above' if err_pct > 0 else 'below'} the reference "
+            f"{format_value(ref, result_rule.unit, 'length', 8)}."
+        )
+    rep = sub.results.get(result_rule.key)
+    accuracy = {
+        "method": method.id,
+        "step": result_rule.key,
+        "unit": result_rule.unit,
+        "reference": _display(ref, result_rule.unit, "length"),
+        "recomputed": _display(value, result_rule.unit, "length"),
+        "reported": _display(rep.si, result_rule.unit, "length") if rep is not None else None,
+        "error_pct": round(err_pct, 4) if err_pct is not None else None,
+        "rule": acc.text,
+        "points": round(acc.points * frac, 3),
+        "max_points": acc.points,
+        "explanation": acc_text,
+    }
+
+    # Field quality: counts and spread of repeated readings.
+    quality = []
+    for name, (key, readings) in used.items():
+        o = method.observation(name)
+        rule_o = spec.observations[name]
+        n = len(readings)
+        if o.repeated or rule_o.min_readings > 1:
+            ok = n >= rule_o.min_readings
+            quality.append({
+                "method": method.id, "observation": name, "ok": ok,
+                "text": f"{o.label}: {n} reading{'s' if n != 1 else ''}"
+                + ("" if ok else f"; the lab asks for at least {rule_o.min_readings}") + ".",
+            })
+        if n >= 2:
+            sd = float(np.std([r.si for r in readings], ddof=1))
+            text = f"{o.label}: spread of the readings (standard deviation) {format_value(sd, rule_o.unit, o.kind, 2)}"
+            if rule_o.sigma_si:
+                text += f"; the instrument's standard deviation is {rule_o.sigma_text}"
+                ok = sd <= 3 * rule_o.sigma_si
+                if not ok:
+                    text += ": more than three times larger. Check for a misread or a moved instrument"
+            else:
+                ok = True
+            quality.append({"method": method.id, "observation": name, "ok": ok, "text": text + "."})
+    for note in obs_notes:
+        quality.append({"method": method.id, "observation": None, "ok": True, "text": note})
+
+    observations_shown = []
+    for name, (key, readings) in used.items():
+        o = method.observation(name)
+        unit = spec.observations[name].unit
+        observations_shown.append({
+            "method": method.id,
+            "name": name,
+            "item": key,
+            "label": o.label,
+            "readings": [{"row": r.row, "as_written": f"{r.text} {r.unit}".strip()} for r in readings],
+            "value": format_value(obs[name] if not np.ndim(obs[name]) else float(np.mean(obs[name])), unit, o.kind, 5),
+            "value_note": "mean" if np.ndim(obs[name]) or len(readings) > 1 else "",
+        })
+    return records, accuracy, quality, observations_shown
+
+
+def _attempted(method: Method, sub: Submission, spec: LabSpec) -> bool:
+    """A method counts as attempted when any of its own observations or results is given."""
+    shared = set()
+    for other in spec.methods:
+        if other is not method:
+            shared |= {o.name for o in other.observations}
+    names = set()
+    for o in method.observations:
+        if o.name not in shared:
+            names.add(o.name)
+            names |= {a.name for a in o.alternatives}
+    keys = set(sub.observations) | sub.bad_items
+    if any(k.split(".")[-1] in names or k.startswith(method.id + ".") for k in keys):
+        return True
+    return any(r.method.id == method.id and (r.key in sub.results or r.key in sub.bad_items) for r in spec.steps.values())
+
+
+def grade_submission(sub: Submission, spec: LabSpec) -> dict:
+    """Grade a normalised submission; returns its results record (see docs/formats.md)."""
+    if spec.methods_required == "all":
+        methods = list(spec.methods)
+    else:
+        methods = [m for m in spec.methods if _attempted(m, sub, spec)] or list(spec.methods)
+    steps, accuracy, quality, observations = [], {}, [], []
+    for m in methods:
+        s, a, q, o = _grade_method(m, sub, spec)
+        steps += s
+        accuracy[m.id] = a
+        quality += q
+        observations += o
+    score = sum(s["points"] for s in steps) + sum(a["points"] for a in accuracy.values())
+    max_score = sum(s["max_points"] for s in steps) + sum(a["max_points"] for a in accuracy.values())
+    flags = [p.as_dict() for p in sub.problems]
+    return {
+        "submission": sub.source,
+        "student_id": sub.identity.get("student_id", ""),
+        "name": sub.identity.get("name", ""),
+        "group": sub.identity.get("group", ""),
+        "date": sub.identity.get("date", ""),
+        "site": sub.identity.get("site", ""),
+        "status": "graded",
+        "error": None,
+        "methods": [m.id for m in methods],
+        "score": round(score, 2),
+        "max_score": round(max_score, 2),
+        "steps": steps,
+        "accuracy": accuracy,
+        "quality": quality,
+        "flags": flags,
+        "observations": observations,
+        "notes": sub.notes,
+    }
+
+
+def unreadable_record(source: str, error: str) -> dict:
+    """The record for a file that could not be read at all."""
+    return {
+        "submission": source, "student_id": "", "name": "", "group": "", "date": "", "site": "",
+        "status": "unreadable", "error": error, "methods": [], "score": None, "max_score": None,
+        "steps": [], "accuracy": {}, "quality": [], "flags": [], "observations": [], "notes": [],
+    }
+
+
+def missing_record(student_id: str, name: str) -> dict:
+    """The record for a roster entry with no submission."""
+    rec = unreadable_record("", "no submission found for this student")
+    rec.update(student_id=student_id, name=name, status="missing", submission=None)
+    return rec

@@ -1,0 +1,165 @@
+"""Methods are small graphs of steps.
+
+A :class:`Method` is an ordered list of :class:`Step` objects.  Each step
+declares its inputs by name: an observation of the method, a constant of the
+lab spec, or the id of an earlier step.  Because inputs are declared, the
+grader can evaluate a step twice: from the reference values of its upstream
+steps, and from the student's own reported upstream values (error carried
+forward).  The same mechanism evaluates a step's known mistakes
+(:class:`Variant`) so that a wrong value can be named.
+
+Everything here is SI (metres, radians, degrees Celsius); units for display
+are chosen by the lab spec at the edges.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+__all__ = ["Alternative", "Observation", "Constant", "Step", "Variant", "Method", "formula_variant", "input_variant"]
+
+
+@dataclass(frozen=True)
+class Alternative:
+    """Another way of recording an observation (a theodolite's zenith angle for a dip).
+
+    ``transform`` turns readings of the alternative (SI) into readings of the
+    observation (SI).  Same quantity kind as the observation.
+    """
+
+    name: str
+    description: str
+    unit: str
+    transform: Callable
+
+
+@dataclass(frozen=True)
+class Observation:
+    """A field observation a group records.
+
+    ``repeated`` observations are passed to steps as an array of readings;
+    the others as the mean of whatever rows were given (with a note when
+    there were several).
+    """
+
+    name: str
+    label: str
+    kind: str  # 'length', 'angle', ...
+    unit: str  # the template's unit unless the spec says otherwise
+    description: str
+    repeated: bool = False
+    positive: bool = True  # a value <= 0 is a bad row
+    alternatives: tuple[Alternative, ...] = ()
+
+
+@dataclass(frozen=True)
+class Constant:
+    """A constant the lab spec must give (refraction coefficient, reference radius)."""
+
+    name: str
+    label: str
+    kind: str
+    description: str
+
+
+@dataclass(frozen=True)
+class Variant:
+    """A known mistake at a step: a way of computing it that students get wrong.
+
+    ``compute(step, inputs)`` returns the value the mistake produces, in SI,
+    from the same inputs the step receives.  ``explanation`` is plain words
+    for the feedback sheet; the lab spec may override it by ``id``.
+    """
+
+    id: str
+    label: str
+    explanation: str
+    compute: Callable[["Step", dict], float]
+
+
+def formula_variant(id: str, label: str, explanation: str, func: Callable[..., float]) -> Variant:
+    """A mistake that replaces the step's formula by ``func`` of the same inputs (in declared order)."""
+    return Variant(id, label, explanation, lambda step, inputs: func(*(inputs[n] for n in step.inputs)))
+
+
+def input_variant(id: str, label: str, explanation: str, input_name: str, transform: Callable[[float], float]) -> Variant:
+    """A mistake in one input (a unit mix-up, an angle mode): the right formula on a transformed input."""
+
+    def compute(step: "Step", inputs: dict) -> float:
+        if input_name not in inputs:
+            return float("nan")
+        changed = dict(inputs)
+        changed[input_name] = transform(inputs[input_name])
+        return step.evaluate(changed)
+
+    return Variant(id, label, explanation, compute)
+
+
+@dataclass(frozen=True)
+class Step:
+    """One step of a method.
+
+    ``id`` is stable: it is the key students report results under.
+    ``inputs`` names observations, constants or earlier step ids; ``func``
+    takes them positionally, in that order (SI), and returns the step's
+    value (SI).
+    """
+
+    id: str
+    label: str
+    kind: str  # quantity kind of the result: 'length', 'angle', 'percent', 'ratio'
+    unit: str  # default display unit
+    formula: str
+    source: str
+    inputs: tuple[str, ...]
+    func: Callable[..., float]
+    variants: tuple[Variant, ...] = ()
+    description: str = ""
+
+    def evaluate(self, inputs: dict):
+        """The step's value from ``inputs`` (a mapping that holds every declared input)."""
+        return self.func(*(inputs[n] for n in self.inputs))
+
+
+@dataclass(frozen=True)
+class Method:
+    """An ordered list of steps with the observations and constants they use."""
+
+    id: str
+    title: str
+    observations: tuple[Observation, ...]
+    constants: tuple[Constant, ...]
+    steps: tuple[Step, ...]
+    result_step: str  # the step whose value is judged for accuracy
+    summary: str = ""
+
+    def __post_init__(self) -> None:
+        known = {o.name for o in self.observations} | {c.name for c in self.constants}
+        for step in self.steps:
+            for name in step.inputs:
+                if name not in known:
+                    raise ValueError(f"method {self.id}: step {step.id} uses {name!r}, declared nowhere before it")
+            known.add(step.id)
+        if self.result_step not in {s.id for s in self.steps}:
+            raise ValueError(f"method {self.id}: result step {self.result_step!r} is not a step")
+
+    def step(self, step_id: str) -> Step:
+        for s in self.steps:
+            if s.id == step_id:
+                return s
+        raise KeyError(step_id)
+
+    def observation(self, name: str) -> Observation:
+        for o in self.observations:
+            if o.name == name:
+                return o
+        raise KeyError(name)
+
+    @property
+    def step_ids(self) -> tuple[str, ...]:
+        return tuple(s.id for s in self.steps)
+
+    def upstream_steps(self, step: Step) -> tuple[str, ...]:
+        ids = set(self.step_ids)
+        return tuple(n for n in step.inputs if n in ids)

@@ -1,0 +1,453 @@
+"""Lab spec files (TOML): load, validate, and resolve against the methods.
+
+A spec error names the file, the key path and what was expected; every
+error in a file is reported at once.  See ``docs/spec.md`` for the schema,
+which :data:`SCHEMA_DOC` below mirrors (a test keeps the two in step).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from .methods import METHODS, Method, Step
+from .units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
+
+__all__ = ["SpecError", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
+
+# Each top-level key, what it holds, and whether it is required.  docs/spec.md
+# documents the same keys (tests/test_spec.py checks every key is there).
+SCHEMA_DOC = {
+    "id": "lab id, snake_case (required)",
+    "title": "title shown on sheets (required)",
+    "methods": "list of method ids, in the order shown (required)",
+    "methods_required": '"any" (grade the methods a group attempted) or "all" (default "any")',
+    "safety": "the lab's safety note, shown on every sheet (required)",
+    "constants": "table of constants with units (required: those the methods use)",
+    "observations": "per observation: unit, sigma, min_readings (optional)",
+    "steps": "per step key: points, tolerance, unit (required for every step)",
+    "grading": "carried_fraction, pass_fraction (optional)",
+    "accuracy": "points, full_within, zero_beyond (required)",
+    "mistakes": "per mistake id: replacement explanation text (optional)",
+    "course": "course name shown on sheets (optional)",
+}
+
+
+class SpecError(Exception):
+    """A lab spec is malformed.  ``problems`` lists (key path, message)."""
+
+    def __init__(self, path: str, problems: list[tuple[str, str]]):
+        self.path = path
+        self.problems = problems
+        lines = [f"{path}: {key}: {msg}" if key else f"{path}: {msg}" for key, msg in problems]
+        super().__init__("\n".join(lines))
+
+
+@dataclass(frozen=True)
+class Tolerance:
+    """A computation tolerance: absolute (SI) or relative (fraction)."""
+
+    text: str
+    absolute_si: float | None = None
+    relative: float | None = None
+
+    def allowed(self, value_si: float) -> float:
+        """The allowed difference [SI] around ``value_si``."""
+        if self.relative is not None:
+            return abs(value_si) * self.relative
+        return self.absolute_si or 0.0
+
+    def matches(self, reported_si: float, target_si: float) -> bool:
+        if not (math.isfinite(reported_si) and math.isfinite(target_si)):
+            return False
+        # A hair of floating-point slack so that a value exactly on the edge passes.
+        slack = 1e-9 * max(abs(target_si), 1e-300)
+        return abs(reported_si - target_si) <= self.allowed(target_si) + slack
+
+
+@dataclass(frozen=True)
+class StepRule:
+    key: str  # public key: 'dip_mean' or 'dip.radius'
+    method: Method
+    step: Step
+    points: float
+    tolerance: Tolerance
+    unit: str
+
+
+@dataclass(frozen=True)
+class ObservationRule:
+    name: str
+    unit: str
+    sigma_si: float | None
+    sigma_text: str | None
+    min_readings: int
+
+
+@dataclass(frozen=True)
+class AccuracyRule:
+    points: float
+    full_within: float  # relative (fraction) or absolute metres, see kind
+    zero_beyond: float
+    kind: str  # 'relative' or 'absolute'
+    text: str
+
+    def score_fraction(self, value_si: float, reference_si: float) -> float:
+        """1 within the full band, 0 beyond the zero band, linear between."""
+        if not math.isfinite(value_si):
+            return 0.0
+        err = abs(value_si - reference_si)
+        if self.kind == "relative":
+            err = err / abs(reference_si)
+        if err <= self.full_within:
+            return 1.0
+        if err >= self.zero_beyond:
+            return 0.0
+        return (self.zero_beyond - err) / (self.zero_beyond - self.full_within)
+
+
+@dataclass
+class LabSpec:
+    path: str
+    sha256: str
+    id: str
+    title: str
+    course: str
+    methods: list[Method]
+    methods_required: str
+    safety: str
+    constants_si: dict[str, float]
+    constants_text: dict[str, str]
+    observations: dict[str, ObservationRule]
+    steps: dict[str, StepRule]  # public key -> rule, in method order
+    carried_fraction: float
+    pass_fraction: float
+    accuracy: AccuracyRule
+    mistakes: dict[str, str] = field(default_factory=dict)
+
+    def step_key(self, method_id: str, step_id: str) -> str:
+        return public_step_key(self.methods, method_id, step_id)
+
+    def steps_of(self, method: Method) -> list[StepRule]:
+        return [r for r in self.steps.values() if r.method.id == method.id]
+
+    @property
+    def max_points_per_method(self) -> dict[str, float]:
+        return {
+            m.id: sum(r.points for r in self.steps_of(m)) + self.accuracy.points for m in self.methods
+        }
+
+
+def public_step_key(methods: list[Method], method_id: str, step_id: str) -> str:
+    """The key a step is reported under: its id, or ``method.id`` where two methods share the id."""
+    owners = [m.id for m in methods if step_id in m.step_ids]
+    return f"{method_id}.{step_id}" if len(owners) > 1 else step_id
+
+
+def _parse_tolerance(text, kind: str) -> Tolerance:
+    if not isinstance(text, str):
+        raise UnitError(f'expected a string such as "0.5 %" or "0.01 km", got {text!r}')
+    number, unit = parse_quantity(text)
+    if number < 0:
+        raise UnitError(f"a tolerance cannot be negative, got {text!r}")
+    if unit == "%":
+        if kind == "percent":
+            raise UnitError(
+                f'this step is itself in percent: write an absolute tolerance in percentage points, e.g. "0.1 pp", got {text!r}'
+            )
+        return Tolerance(text, relative=number / 100.0)
+    if kind == "ratio" and unit in ("", "1"):
+        return Tolerance(text, absolute_si=number)
+    if kind == "percent" and unit == "pp":
+        return Tolerance(text, absolute_si=number)
+    if kind not in UNITS or unit not in UNITS[kind]:
+        allowed = ", ".join(sorted(u for u in UNITS.get(kind, {}) if u != "%"))
+        raise UnitError(f'expected a {kind} with a unit ({allowed}) or a relative tolerance in %, got {text!r}')
+    return Tolerance(text, absolute_si=to_si(number, unit, kind))
+
+
+def _parse_constant(text, kind: str) -> float:
+    if isinstance(text, (int, float)) and not isinstance(text, bool) and kind == "ratio":
+        return float(text)
+    if not isinstance(text, str):
+        raise UnitError(f'expected a string with a unit such as "6371.0088 km", got {text!r}')
+    number, unit = parse_quantity(text)
+    if kind == "ratio":
+        if unit not in ("", "1"):
+            raise UnitError(f"expected a plain number, got {text!r}")
+        return number
+    if unit not in UNITS.get(kind, {}):
+        raise UnitError(f"expected a {kind} with a unit ({', '.join(sorted(UNITS[kind]))}), got {text!r}")
+    return to_si(number, unit, kind)
+
+
+class _Checker:
+    """Collects problems as (key path, message) while reading a spec table."""
+
+    def __init__(self):
+        self.problems: list[tuple[str, str]] = []
+
+    def add(self, key: str, msg: str) -> None:
+        self.problems.append((key, msg))
+
+    def get(self, table: dict, key: str, path: str, types, required=True, default=None, what=""):
+        full = f"{path}.{key}" if path else key
+        if key not in table:
+            if required:
+                self.add(full, f"missing; expected {what or _type_name(types)}")
+            return default
+        value = table[key]
+        if not isinstance(value, types) or isinstance(value, bool) and bool not in _as_tuple(types):
+            self.add(full, f"expected {what or _type_name(types)}, got {value!r}")
+            return default
+        return value
+
+
+def _as_tuple(t):
+    return t if isinstance(t, tuple) else (t,)
+
+
+def _type_name(types) -> str:
+    names = {str: "a string", int: "a whole number", float: "a number", list: "a list", dict: "a table", bool: "true or false"}
+    return " or ".join(names.get(t, t.__name__) for t in _as_tuple(types))
+
+
+def load_spec(path: str | Path) -> LabSpec:
+    """Read and validate a lab spec file.  Raises :class:`SpecError`."""
+    p = Path(path)
+    try:
+        data = p.read_bytes()
+    except OSError as exc:
+        raise SpecError(str(p), [("", f"cannot read the file: {exc.strerror or exc}")]) from None
+    return parse_spec(data, str(p))
+
+
+def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
+    """Validate spec ``data`` (TOML bytes); ``path`` is used in messages."""
+    sha = hashlib.sha256(data).hexdigest()
+    try:
+        raw = tomllib.loads(data.decode("utf-8"))
+    except UnicodeDecodeError:
+        raise SpecError(path, [("", "expected a UTF-8 text file")]) from None
+    except tomllib.TOMLDecodeError as exc:
+        raise SpecError(path, [("", f"not valid TOML: {exc}")]) from None
+
+    c = _Checker()
+    known_top = set(SCHEMA_DOC)
+    for key in raw:
+        if key not in known_top:
+            c.add(key, f"unknown key; expected one of {', '.join(sorted(known_top))}")
+
+    lab_id = c.get(raw, "id", "", str, what="a lab id string") or ""
+    title = c.get(raw, "title", "", str, what="a title string") or ""
+    course = c.get(raw, "course", "", str, required=False, default="") or ""
+    safety = c.get(raw, "safety", "", str, what="the lab's safety note as a string") or ""
+    if "safety" in raw and isinstance(raw["safety"], str) and not raw["safety"].strip():
+        c.add("safety", "must not be empty: every sheet carries the lab's safety note")
+
+    method_ids = c.get(raw, "methods", "", list, what=f"a list of method ids from: {', '.join(METHODS)}") or []
+    methods: list[Method] = []
+    for i, mid in enumerate(method_ids):
+        if mid not in METHODS:
+            c.add(f"methods[{i}]", f"unknown method {mid!r}; expected one of {', '.join(METHODS)}")
+        elif METHODS[mid] in methods:
+            c.add(f"methods[{i}]", f"method {mid!r} is listed twice")
+        else:
+            methods.append(METHODS[mid])
+    if "methods" in raw and isinstance(raw["methods"], list) and not raw["methods"]:
+        c.add("methods", "expected at least one method")
+
+    required = c.get(raw, "methods_required", "", str, required=False, default="any")
+    if required not in ("any", "all"):
+        c.add("methods_required", f'expected "any" or "all", got {required!r}')
+        required = "any"
+
+    # Constants: every constant any method uses, with a unit of the right kind.
+    constants_raw = c.get(raw, "constants", "", dict, what="a table of constants") or {}
+    constants_si: dict[str, float] = {}
+    constants_text: dict[str, str] = {}
+    needed = {}
+    for m in methods:
+        for const in m.constants:
+            needed[const.name] = const
+    for name, const in needed.items():
+        if name not in constants_raw:
+            c.add(f"constants.{name}", f"missing; expected the {const.label} ({const.description})")
+            continue
+        try:
+            constants_si[name] = _parse_constant(constants_raw[name], const.kind)
+            constants_text[name] = str(constants_raw[name])
+        except UnitError as exc:
+            c.add(f"constants.{name}", str(exc))
+    for name in constants_raw:
+        if name not in needed:
+            c.add(f"constants.{name}", f"unknown constant; the methods use: {', '.join(needed) or 'none'}")
+    if "k" in constants_si and not 0.0 <= constants_si["k"] < 1.0:
+        c.add("constants.k", f"expected a refraction coefficient between 0 and 1, got {constants_text['k']!r}")
+    if "reference_radius" in constants_si and not 6.0e6 < constants_si["reference_radius"] < 6.5e6:
+        c.add("constants.reference_radius", f"expected a radius of the Earth (about 6371 km), got {constants_text['reference_radius']!r}")
+
+    # Observations: unit, sigma, min_readings per observation.
+    obs_raw = c.get(raw, "observations", "", dict, required=False, default={}) or {}
+    all_obs = {}
+    for m in methods:
+        for o in m.observations:
+            all_obs.setdefault(o.name, o)
+    observations: dict[str, ObservationRule] = {}
+    for name in obs_raw:
+        if name not in all_obs:
+            c.add(f"observations.{name}", f"unknown observation; the methods use: {', '.join(all_obs)}")
+    for name, o in all_obs.items():
+        table = obs_raw.get(name, {})
+        path = f"observations.{name}"
+        if not isinstance(table, dict):
+            c.add(path, f"expected a table with unit, sigma, min_readings; got {table!r}")
+            table = {}
+        for key in table:
+            if key not in ("unit", "sigma", "min_readings"):
+                c.add(f"{path}.{key}", "unknown key; expected unit, sigma or min_readings")
+        unit = c.get(table, "unit", path, str, required=False, default=o.unit)
+        unit = canonical_unit(unit)
+        if unit not in UNITS.get(o.kind, {}) and not (o.kind == "angle" and unit == "dms"):
+            c.add(f"{path}.unit", f"expected a {o.kind} unit ({', '.join(sorted(UNITS[o.kind]))}), got {unit!r}")
+            unit = o.unit
+        sigma_text = c.get(table, "sigma", path, str, required=False, default=None, what='a standard deviation with a unit, e.g. "20 arcsec"')
+        sigma_si = None
+        if sigma_text is not None:
+            try:
+                sigma_si = _parse_constant(sigma_text, o.kind)
+                if sigma_si <= 0:
+                    c.add(f"{path}.sigma", f"expected a positive standard deviation, got {sigma_text!r}")
+            except UnitError as exc:
+                c.add(f"{path}.sigma", str(exc))
+        min_readings = c.get(table, "min_readings", path, int, required=False, default=1)
+        if isinstance(min_readings, int) and min_readings < 1:
+            c.add(f"{path}.min_readings", f"expected a whole number of at least 1, got {min_readings}")
+            min_readings = 1
+        observations[name] = ObservationRule(name, unit, sigma_si, sigma_text, min_readings)
+
+    # Steps: points and tolerance for every step of every method.
+    steps_raw = c.get(raw, "steps", "", dict, what="a table with one entry per step") or {}
+    steps: dict[str, StepRule] = {}
+    expected_keys = [public_step_key(methods, m.id, s.id) for m in methods for s in m.steps]
+    for key in steps_raw:
+        if key not in expected_keys:
+            c.add(f"steps.{key}", f"unknown step; the steps of this lab are: {', '.join(expected_keys)}")
+    for m in methods:
+        for s in m.steps:
+            key = public_step_key(methods, m.id, s.id)
+            path = f'steps."{key}"' if "." in key else f"steps.{key}"
+            table = steps_raw.get(key)
+            if table is None:
+                c.add(path, f'missing; expected a table with points and tolerance for the step "{s.label}"')
+                continue
+            if not isinstance(table, dict):
+                c.add(path, f"expected a table with points and tolerance, got {table!r}")
+                continue
+            for k in table:
+                if k not in ("points", "tolerance", "unit"):
+                    c.add(f"{path}.{k}", "unknown key; expected points, tolerance or unit")
+            points = c.get(table, "points", path, (int, float), what="a number of points (0 or more)")
+            if isinstance(points, (int, float)) and points < 0:
+                c.add(f"{path}.points", f"expected 0 or more points, got {points}")
+            tol_text = c.get(table, "tolerance", path, str, what='a tolerance such as "0.5 %" or "0.01 km"')
+            tol = None
+            if tol_text is not None:
+                try:
+                    tol = _parse_tolerance(tol_text, s.kind)
+                except UnitError as exc:
+                    c.add(f"{path}.tolerance", str(exc))
+            unit = canonical_unit(c.get(table, "unit", path, str, required=False, default=s.unit))
+            if s.kind in UNITS and unit not in UNITS[s.kind]:
+                c.add(f"{path}.unit", f"expected a {s.kind} unit ({', '.join(sorted(UNITS[s.kind]))}), got {unit!r}")
+                unit = s.unit
+            if points is not None and tol is not None:
+                steps[key] = StepRule(key, m, s, float(points), tol, unit)
+
+    grading = c.get(raw, "grading", "", dict, required=False, default={}) or {}
+    for k in grading:
+        if k not in ("carried_fraction", "pass_fraction"):
+            c.add(f"grading.{k}", "unknown key; expected carried_fraction or pass_fraction")
+    carried = c.get(grading, "carried_fraction", "grading", (int, float), required=False, default=1.0)
+    if not 0.0 <= carried <= 1.0:
+        c.add("grading.carried_fraction", f"expected a fraction from 0 to 1, got {carried}")
+    pass_fraction = c.get(grading, "pass_fraction", "grading", (int, float), required=False, default=0.6)
+    if not 0.0 <= pass_fraction <= 1.0:
+        c.add("grading.pass_fraction", f"expected a fraction from 0 to 1, got {pass_fraction}")
+
+    acc_raw = c.get(raw, "accuracy", "", dict, what="a table with points, full_within and zero_beyond") or {}
+    accuracy = _parse_accuracy(acc_raw, c)
+
+    mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
+    known_mistakes = {v.id for m in methods for s in m.steps for v in s.variants}
+    for k, v in mistakes.items():
+        if k not in known_mistakes:
+            c.add(f"mistakes.{k}", f"unknown mistake id; known: {', '.join(sorted(known_mistakes))}")
+        elif not isinstance(v, str) or not v.strip():
+            c.add(f"mistakes.{k}", "expected the explanation text as a non-empty string")
+
+    if c.problems:
+        raise SpecError(path, c.problems)
+    return LabSpec(
+        path=path,
+        sha256=sha,
+        id=lab_id,
+        title=title,
+        course=course,
+        methods=methods,
+        methods_required=required,
+        safety=safety.strip(),
+        constants_si=constants_si,
+        constants_text=constants_text,
+        observations=observations,
+        steps=steps,
+        carried_fraction=float(carried),
+        pass_fraction=float(pass_fraction),
+        accuracy=accuracy,
+        mistakes=dict(mistakes),
+    )
+
+
+def _parse_band(text, path: str, c: _Checker) -> tuple[float, str] | None:
+    if not isinstance(text, str):
+        c.add(path, f'expected a band such as "5 %" or "300 km", got {text!r}')
+        return None
+    try:
+        number, unit = parse_quantity(text)
+    except UnitError as exc:
+        c.add(path, str(exc))
+        return None
+    if number < 0:
+        c.add(path, f"expected a band of 0 or more, got {text!r}")
+        return None
+    if unit == "%":
+        return number / 100.0, "relative"
+    if unit in UNITS["length"]:
+        return to_si(number, unit, "length"), "absolute"
+    c.add(path, f'expected a band in % or a length unit (e.g. "5 %" or "300 km"), got {text!r}')
+    return None
+
+
+def _parse_accuracy(acc: dict, c: _Checker) -> AccuracyRule:
+    for k in acc:
+        if k not in ("points", "full_within", "zero_beyond"):
+            c.add(f"accuracy.{k}", "unknown key; expected points, full_within or zero_beyond")
+    points = c.get(acc, "points", "accuracy", (int, float), what="a number of points (0 or more)", default=0)
+    full = _parse_band(acc.get("full_within"), "accuracy.full_within", c) if "full_within" in acc else None
+    zero = _parse_band(acc.get("zero_beyond"), "accuracy.zero_beyond", c) if "zero_beyond" in acc else None
+    if "full_within" not in acc:
+        c.add("accuracy.full_within", 'missing; expected a band such as "5 %" or "300 km"')
+    if "zero_beyond" not in acc:
+        c.add("accuracy.zero_beyond", 'missing; expected a band such as "20 %" or "1300 km"')
+    if full and zero:
+        if full[1] != zero[1]:
+            c.add("accuracy", "full_within and zero_beyond must both be in % or both lengths")
+        elif zero[0] <= full[0]:
+            c.add("accuracy.zero_beyond", "expected a band wider than full_within")
+    if not (full and zero):
+        return AccuracyRule(float(points or 0), 0.0, 1.0, "relative", "")
+    text = f"full points within {acc['full_within']}, none beyond {acc['zero_beyond']}, linear between"
+    return AccuracyRule(float(points), full[0], zero[0], full[1], text)

@@ -1,0 +1,182 @@
+"""Turn a submission's rows into SI observations and reported results.
+
+One mapping from template items to internal names; blanks are skipped; a
+value that cannot be read is recorded as a problem on its row and left out,
+and the rest of the submission goes on.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+from .ingest import RawSubmission, Row
+from .spec import LabSpec
+from .units import UnitError, canonical_unit, parse_value
+
+__all__ = ["IDENTITY_FIELDS", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
+
+IDENTITY_FIELDS = {
+    "student_id": "student id (as on the course roster)",
+    "name": "your name",
+    "group": "your group's name or number",
+    "date": "date of the field work (YYYY-MM-DD)",
+    "site": "where you observed",
+}
+_PARTS = {
+    "identity": "identity", "id": "identity",
+    "observation": "observation", "observations": "observation", "obs": "observation",
+    "result": "result", "results": "result",
+}
+
+
+@dataclass(frozen=True)
+class Reading:
+    """A value read from a row: SI number, and the row it came from."""
+
+    si: float
+    row: int
+    text: str  # value as written
+    unit: str  # unit as written, or the template's unit when blank
+
+
+@dataclass(frozen=True)
+class Problem:
+    """A row that could not be used, and why."""
+
+    row: int | None
+    item: str
+    value: str
+    message: str
+
+    def as_dict(self) -> dict:
+        return {"row": self.row, "item": self.item, "value": self.value, "message": self.message}
+
+
+@dataclass
+class Submission:
+    source: str
+    identity: dict[str, str] = field(default_factory=dict)
+    observations: dict[str, list[Reading]] = field(default_factory=dict)  # key: item as written (name or method.name)
+    results: dict[str, Reading] = field(default_factory=dict)  # key: public step key
+    problems: list[Problem] = field(default_factory=list)
+    notes: list[dict] = field(default_factory=list)  # {"row", "item", "note"}
+    bad_items: set[str] = field(default_factory=set)  # items with at least one unreadable row
+
+
+def observation_keys(spec: LabSpec) -> dict[str, tuple[str, str, str]]:
+    """Item key -> (observation name, kind, template unit) for every accepted observation item.
+
+    Keys are the bare name, the ``method.name`` form, and alternative
+    recordings (e.g. ``horizon_zenith_angle``) in both forms.
+    """
+    keys: dict[str, tuple[str, str, str]] = {}
+    for m in spec.methods:
+        for o in m.observations:
+            unit = spec.observations[o.name].unit
+            for key in (o.name, f"{m.id}.{o.name}"):
+                keys[key] = (o.name, o.kind, unit)
+            for alt in o.alternatives:
+                for key in (alt.name, f"{m.id}.{alt.name}"):
+                    keys[key] = (alt.name, o.kind, alt.unit)
+    return keys
+
+
+def result_keys(spec: LabSpec) -> dict[str, str]:
+    """Item key as a student may write it -> public step key.
+
+    The public key always works; ``method.step`` works for every step; a
+    bare step id works where it is not shared by two methods.
+    """
+    keys: dict[str, str] = {}
+    for rule in spec.steps.values():
+        keys[rule.key] = rule.key
+        keys[f"{rule.method.id}.{rule.step.id}"] = rule.key
+    return keys
+
+
+def normalise(raw: RawSubmission, spec: LabSpec, obs_keys=None, res_keys=None) -> Submission:
+    """Read ``raw``'s rows against ``spec``.  Never raises for bad student data."""
+    obs_keys = obs_keys if obs_keys is not None else observation_keys(spec)
+    res_keys = res_keys if res_keys is not None else result_keys(spec)
+    sub = Submission(raw.source)
+    ambiguous = {
+        rule.step.id for rule in spec.steps.values() if rule.key != rule.step.id
+    }
+    for row in raw.rows:
+        if row.note:
+            sub.notes.append({"row": row.number, "item": row.item, "note": row.note})
+        part = _PARTS.get(row.part)
+        item = row.item.strip()
+        if part is None:
+            sub.problems.append(
+                Problem(row.number, item, row.value, f"unknown part {row.part!r}; expected identity, observation or result")
+            )
+            continue
+        if part == "identity":
+            _identity(sub, row, item)
+        elif part == "observation":
+            _observation(sub, row, item, obs_keys)
+        else:
+            _result(sub, row, item, res_keys, ambiguous, spec)
+    return sub
+
+
+def _identity(sub: Submission, row: Row, item: str) -> None:
+    key = item.lower()
+    if key not in IDENTITY_FIELDS:
+        sub.problems.append(
+            Problem(row.number, item, row.value, f"unknown identity item; expected one of {', '.join(IDENTITY_FIELDS)}")
+        )
+        return
+    if row.value:
+        sub.identity[key] = row.value
+
+
+def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
+    if item not in obs_keys:
+        sub.problems.append(
+            Problem(row.number, item, row.value, "unknown observation; it is kept here but not used")
+        )
+        return
+    if not row.value:
+        return  # a blank template row
+    name, kind, template_unit = obs_keys[item]
+    unit = canonical_unit(row.unit) if row.unit else template_unit
+    try:
+        si = float(parse_value(row.value, unit, kind))
+    except UnitError as exc:
+        sub.problems.append(Problem(row.number, item, row.value, str(exc)))
+        sub.bad_items.add(item)
+        return
+    if kind == "length" and si <= 0:
+        sub.problems.append(Problem(row.number, item, row.value, "a height or distance must be greater than zero"))
+        sub.bad_items.add(item)
+        return
+    sub.observations.setdefault(item, []).append(Reading(si, row.number, row.value, unit))
+
+
+def _result(sub: Submission, row: Row, item: str, res_keys, ambiguous, spec: LabSpec) -> None:
+    if item not in res_keys:
+        if item in ambiguous:
+            options = [r.key for r in spec.steps.values() if r.step.id == item]
+            msg = f"ambiguous: this lab has two methods with this step; write {' or '.join(options)}"
+        else:
+            msg = f"unknown result; expected one of {', '.join(spec.steps)}"
+        sub.problems.append(Problem(row.number, item, row.value, msg))
+        return
+    if not row.value:
+        return
+    key = res_keys[item]
+    rule = spec.steps[key]
+    unit = canonical_unit(row.unit) if row.unit else rule.unit
+    try:
+        si = float(parse_value(row.value, unit, rule.step.kind))
+    except UnitError as exc:
+        sub.problems.append(Problem(row.number, item, row.value, str(exc)))
+        sub.bad_items.add(key)
+        return
+    if key in sub.results:
+        sub.problems.append(
+            Problem(row.number, item, row.value, f"reported twice (also row {sub.results[key].row}); this later value is used")
+        )
+    sub.results[key] = Reading(si, row.number, row.value, unit)

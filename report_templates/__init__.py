@@ -1,0 +1,1 @@
+"""HTML templates and stylesheet for feedback sheets and section summaries."""
