@@ -226,7 +226,7 @@ def load_spec(path: str | Path) -> LabSpec:
 
 
 def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
-    """Validate spec ``data`` (TOML bytes); ``path`` is used in messages."""
+    """Validate spec ``data`` (TOML bytes); ``path`` (the file) is used in messages."""
     sha = hashlib.sha256(data).hexdigest()
     try:
         raw = tomllib.loads(data.decode("utf-8"))
@@ -302,30 +302,30 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add(f"observations.{name}", f"unknown observation; the methods use: {', '.join(all_obs)}")
     for name, o in all_obs.items():
         table = obs_raw.get(name, {})
-        path = f"observations.{name}"
+        kp = f"observations.{name}"
         if not isinstance(table, dict):
-            c.add(path, f"expected a table with unit, sigma, min_readings; got {table!r}")
+            c.add(kp, f"expected a table with unit, sigma, min_readings; got {table!r}")
             table = {}
         for key in table:
             if key not in ("unit", "sigma", "min_readings"):
-                c.add(f"{path}.{key}", "unknown key; expected unit, sigma or min_readings")
-        unit = c.get(table, "unit", path, str, required=False, default=o.unit)
+                c.add(f"{kp}.{key}", "unknown key; expected unit, sigma or min_readings")
+        unit = c.get(table, "unit", kp, str, required=False, default=o.unit)
         unit = canonical_unit(unit)
         if unit not in UNITS.get(o.kind, {}) and not (o.kind == "angle" and unit == "dms"):
-            c.add(f"{path}.unit", f"expected a {o.kind} unit ({', '.join(sorted(UNITS[o.kind]))}), got {unit!r}")
+            c.add(f"{kp}.unit", f"expected a {o.kind} unit ({', '.join(sorted(UNITS[o.kind]))}), got {unit!r}")
             unit = o.unit
-        sigma_text = c.get(table, "sigma", path, str, required=False, default=None, what='a standard deviation with a unit, e.g. "20 arcsec"')
+        sigma_text = c.get(table, "sigma", kp, str, required=False, default=None, what='a standard deviation with a unit, e.g. "20 arcsec"')
         sigma_si = None
         if sigma_text is not None:
             try:
                 sigma_si = _parse_constant(sigma_text, o.kind)
                 if sigma_si <= 0:
-                    c.add(f"{path}.sigma", f"expected a positive standard deviation, got {sigma_text!r}")
+                    c.add(f"{kp}.sigma", f"expected a positive standard deviation, got {sigma_text!r}")
             except UnitError as exc:
-                c.add(f"{path}.sigma", str(exc))
-        min_readings = c.get(table, "min_readings", path, int, required=False, default=1)
+                c.add(f"{kp}.sigma", str(exc))
+        min_readings = c.get(table, "min_readings", kp, int, required=False, default=1)
         if isinstance(min_readings, int) and min_readings < 1:
-            c.add(f"{path}.min_readings", f"expected a whole number of at least 1, got {min_readings}")
+            c.add(f"{kp}.min_readings", f"expected a whole number of at least 1, got {min_readings}")
             min_readings = 1
         observations[name] = ObservationRule(name, unit, sigma_si, sigma_text, min_readings)
 
@@ -339,30 +339,30 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     for m in methods:
         for s in m.steps:
             key = public_step_key(methods, m.id, s.id)
-            path = f'steps."{key}"' if "." in key else f"steps.{key}"
+            kp = f'steps."{key}"' if "." in key else f"steps.{key}"
             table = steps_raw.get(key)
             if table is None:
-                c.add(path, f'missing; expected a table with points and tolerance for the step "{s.label}"')
+                c.add(kp, f'missing; expected a table with points and tolerance for the step "{s.label}"')
                 continue
             if not isinstance(table, dict):
-                c.add(path, f"expected a table with points and tolerance, got {table!r}")
+                c.add(kp, f"expected a table with points and tolerance, got {table!r}")
                 continue
             for k in table:
                 if k not in ("points", "tolerance", "unit"):
-                    c.add(f"{path}.{k}", "unknown key; expected points, tolerance or unit")
-            points = c.get(table, "points", path, (int, float), what="a number of points (0 or more)")
+                    c.add(f"{kp}.{k}", "unknown key; expected points, tolerance or unit")
+            points = c.get(table, "points", kp, (int, float), what="a number of points (0 or more)")
             if isinstance(points, (int, float)) and points < 0:
-                c.add(f"{path}.points", f"expected 0 or more points, got {points}")
-            tol_text = c.get(table, "tolerance", path, str, what='a tolerance such as "0.5 %" or "0.01 km"')
+                c.add(f"{kp}.points", f"expected 0 or more points, got {points}")
+            tol_text = c.get(table, "tolerance", kp, str, what='a tolerance such as "0.5 %" or "0.01 km"')
             tol = None
             if tol_text is not None:
                 try:
                     tol = _parse_tolerance(tol_text, s.kind)
                 except UnitError as exc:
-                    c.add(f"{path}.tolerance", str(exc))
-            unit = canonical_unit(c.get(table, "unit", path, str, required=False, default=s.unit))
+                    c.add(f"{kp}.tolerance", str(exc))
+            unit = canonical_unit(c.get(table, "unit", kp, str, required=False, default=s.unit))
             if s.kind in UNITS and unit not in UNITS[s.kind]:
-                c.add(f"{path}.unit", f"expected a {s.kind} unit ({', '.join(sorted(UNITS[s.kind]))}), got {unit!r}")
+                c.add(f"{kp}.unit", f"expected a {s.kind} unit ({', '.join(sorted(UNITS[s.kind]))}), got {unit!r}")
                 unit = s.unit
             if points is not None and tol is not None:
                 steps[key] = StepRule(key, m, s, float(points), tol, unit)

@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 from .ingest import RawSubmission, Row
 from .spec import LabSpec
-from .units import UnitError, canonical_unit, parse_value
+from .units import UnitError, canonical_unit, looks_dms, parse_value
 
 __all__ = ["IDENTITY_FIELDS", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
 
@@ -121,6 +121,15 @@ def normalise(raw: RawSubmission, spec: LabSpec, obs_keys=None, res_keys=None) -
     return sub
 
 
+def _unit_for(row: Row, kind: str, template_unit: str) -> str:
+    """The row's unit; a blank unit means the template's, except that a D M S angle is read as D M S."""
+    if row.unit:
+        return canonical_unit(row.unit)
+    if kind == "angle" and looks_dms(row.value):
+        return "dms"
+    return template_unit
+
+
 def _identity(sub: Submission, row: Row, item: str) -> None:
     key = item.lower()
     if key not in IDENTITY_FIELDS:
@@ -141,7 +150,7 @@ def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
     if not row.value:
         return  # a blank template row
     name, kind, template_unit = obs_keys[item]
-    unit = canonical_unit(row.unit) if row.unit else template_unit
+    unit = _unit_for(row, kind, template_unit)
     try:
         si = float(parse_value(row.value, unit, kind))
     except UnitError as exc:
@@ -168,7 +177,7 @@ def _result(sub: Submission, row: Row, item: str, res_keys, ambiguous, spec: Lab
         return
     key = res_keys[item]
     rule = spec.steps[key]
-    unit = canonical_unit(row.unit) if row.unit else rule.unit
+    unit = _unit_for(row, rule.step.kind, rule.unit)
     try:
         si = float(parse_value(row.value, unit, rule.step.kind))
     except UnitError as exc:

@@ -33,6 +33,7 @@ __all__ = [
     "from_si",
     "parse_number",
     "parse_dms_deg",
+    "looks_dms",
     "parse_quantity",
     "parse_value",
     "Quantity",
@@ -243,7 +244,8 @@ def parse_dms_deg(text: str, *, hemisphere: bool = False) -> float:
     return sign * hemi_sign * (deg + minutes / 60.0 + seconds / 3600.0)
 
 
-def _looks_dms(s: str) -> bool:
+def looks_dms(s: str) -> bool:
+    """True when ``s`` is written as D M S (symbols, or two or three numbers separated by spaces or colons)."""
     return bool(re.search(r"[°º'′’\"″”]", s)) or bool(
         re.fullmatch(r"[+-]?\s*\d+(\.\d*)?([\s:]+\d+(\.\d*)?){1,2}\s*[NSEWnsew]?", s.strip())
     )
@@ -270,7 +272,7 @@ def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False) ->
         raise UnitError("the value is blank")
     if kind == "angle":
         u = _check_unit(unit, kind)
-        if _looks_dms(s) or (hemisphere and s[-1:].upper() in _HEMI):
+        if looks_dms(s) or (hemisphere and s[-1:].upper() in _HEMI):
             if u not in ("deg", "dms"):
                 raise UnitError(
                     f"a D M S angle {text!r} needs the unit deg or dms, not {unit!r}"

@@ -1,0 +1,193 @@
+"""The command line, end to end, in temporary folders."""
+
+import csv
+import json
+import zipfile
+
+import openpyxl
+import pytest
+
+from labcheck.cli import main
+from labcheck.demo import MISSING_STUDENT, PLANTED
+from labcheck.outputs import neutralise_cell
+
+from conftest import csv_bytes, good_dip_rows
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    out = tmp_path_factory.mktemp("demo")
+    code = main(["demo", "--out", str(out), "--quiet"])
+    return out, code
+
+
+def load(out):
+    return json.loads((out / "results.json").read_text(encoding="utf-8"))
+
+
+def test_demo_end_to_end(demo):
+    out, code = demo
+    graded = out / "graded"
+    assert code == 1  # one unreadable file and one missing student, planted
+    results = load(graded)
+    subs = results["submissions"]
+    roster = list(csv.DictReader(open(out / "roster.csv", encoding="utf-8")))
+    gradebook = list(csv.DictReader(open(graded / "gradebook.csv", encoding="utf-8")))
+    # A gradebook row per roster entry, and a sheet per graded group.
+    assert sorted(r["student_id"] for r in gradebook) == sorted(r["student_id"] for r in roster)
+    sheets = sorted(p.stem for p in (graded / "feedback").glob("*.html"))
+    assert sheets == sorted(s["student_id"] for s in subs if s["status"] == "graded")
+    assert len(sheets) == 23
+    by_id = {s["student_id"]: s for s in subs}
+    # Every planted mistake is found where it was planted.
+    for group, (mistake, key) in PLANTED.items():
+        rec = by_id[f"b2150-{group:03d}"]
+        if mistake == "unreadable":
+            assert rec["status"] == "unreadable" and rec["error"]
+            continue
+        if mistake == "bad_row":
+            assert any(f["item"] == key for f in rec["flags"])
+            continue
+        step = next(s for s in rec["steps"] if s["id"] == key)
+        if mistake == "missing_result":
+            assert step["verdict"] == "missing"
+        elif mistake == "dip_mean_slip":
+            assert step["verdict"] == "wrong"
+            assert next(s for s in rec["steps"] if s["id"] == "dip.radius_apparent")["verdict"] == "carried"
+        else:
+            assert step["verdict"] == "wrong" and step["diagnosis"]["id"] == mistake, (group, step)
+    assert by_id[MISSING_STUDENT[0]]["status"] == "missing"
+    # Every input file is accounted for: graded, unreadable or skipped.
+    with zipfile.ZipFile(out / "section_B_submissions.zip") as z:
+        members = {f"section_B_submissions.zip/{n}" for n in z.namelist()}
+    accounted = {s["submission"] for s in subs if s["submission"]} | {s["file"] for s in results["skipped"]}
+    assert members == accounted
+
+
+def test_demo_sheets_carry_safety_and_escape_student_text(demo):
+    out, _ = demo
+    html = (out / "graded" / "feedback" / "b2150-005.html").read_text(encoding="utf-8")
+    assert "solar filter" in html and "licensed surveyor" in html
+    assert "<b>check with TA</b>" not in html
+    assert "&lt;b&gt;check with TA&lt;/b&gt; &amp; redo?" in html
+    section = (out / "graded" / "section.html").read_text(encoding="utf-8")
+    assert "<svg" in section and "not a valid XLSX workbook" in section
+
+
+def test_demo_is_the_same_every_time(tmp_path):
+    from labcheck.demo import demo_section
+
+    assert [g.rows for g in demo_section()] == [g.rows for g in demo_section()]
+
+
+def test_gradebook_neutralises_formulas(tmp_path, capsys):
+    rows = good_dip_rows(sid="=HYPERLINK(\"http://x\")", name="@SUM(A1)")
+    (tmp_path / "in").mkdir()
+    (tmp_path / "in" / "evil.csv").write_bytes(csv_bytes(rows))
+    assert main(["grade", "horizon_dip", str(tmp_path / "in"), "--out", str(tmp_path / "out"), "--quiet"]) == 0
+    text = (tmp_path / "out" / "gradebook.csv").read_text(encoding="utf-8")
+    row = list(csv.reader(text.splitlines()))[1]
+    assert row[0].startswith("'=") and row[1] == "'@SUM(A1)"
+    sheet = next((tmp_path / "out" / "feedback").glob("*.html"))
+    assert "/" not in sheet.name and sheet.parent.name == "feedback"
+
+
+@pytest.mark.parametrize("text, expected", [("=1+1", "'=1+1"), ("+44", "'+44"), ("-3", "'-3"), ("@x", "'@x"), ("ok", "ok"), ("\tx", "'\tx")])
+def test_neutralise_cell(text, expected):
+    assert neutralise_cell(text) == expected
+
+
+def test_exit_codes_and_overwrite_refusal(tmp_path, capsys):
+    good = tmp_path / "good"
+    good.mkdir()
+    (good / "a.csv").write_bytes(csv_bytes(good_dip_rows(sid="s1")))
+    out = tmp_path / "out"
+    assert main(["grade", "horizon_dip", str(good), "--out", str(out), "--quiet"]) == 0
+    # A second run into the same folder is refused without --force ...
+    assert main(["grade", "horizon_dip", str(good), "--out", str(out), "--quiet"]) == 2
+    assert "not empty" in capsys.readouterr().err
+    # ... and allowed with it.
+    assert main(["grade", "horizon_dip", str(good), "--out", str(out), "--quiet", "--force"]) == 0
+    # An unreadable file: graded with exit 1, the batch goes on.
+    (good / "b.csv").write_bytes(b"\x00\x01binary")
+    assert main(["grade", "horizon_dip", str(good), "--out", str(tmp_path / "o2"), "--quiet"]) == 1
+    subs = load(tmp_path / "o2")["submissions"]
+    assert [s["status"] for s in subs] == ["graded", "unreadable"]
+    # A malformed spec: exit 2, nothing graded.
+    bad = tmp_path / "bad.toml"
+    bad.write_text('id = "x"\n', encoding="utf-8")
+    assert main(["grade", str(bad), str(good), "--out", str(tmp_path / "o3")]) == 2
+    err = capsys.readouterr().err
+    assert "bad.toml: title: missing" in err
+    assert not (tmp_path / "o3").exists()
+    # A missing input path: exit 2.
+    assert main(["grade", "horizon_dip", str(tmp_path / "nope"), "--out", str(tmp_path / "o4")]) == 2
+
+
+def test_roster_lists_missing_and_unmatched(tmp_path):
+    (tmp_path / "in").mkdir()
+    (tmp_path / "in" / "a.csv").write_bytes(csv_bytes(good_dip_rows(sid="s1")))
+    (tmp_path / "in" / "b.csv").write_bytes(csv_bytes(good_dip_rows(sid="stranger")))
+    roster = tmp_path / "roster.csv"
+    roster.write_text("student_id,name\ns1,Ada\ns2,Bo\n", encoding="utf-8")
+    code = main(["grade", "horizon_dip", str(tmp_path / "in"), "--roster", str(roster), "--out", str(tmp_path / "out"), "--quiet"])
+    assert code == 1
+    subs = {s["student_id"]: s for s in load(tmp_path / "out")["submissions"]}
+    assert subs["s2"]["status"] == "missing"
+    assert any("not on the roster" in f["message"] for f in subs["stranger"]["flags"])
+
+
+def test_output_folder_inside_input_is_not_reread(tmp_path):
+    (tmp_path / "a.csv").write_bytes(csv_bytes(good_dip_rows(sid="s1")))
+    assert main(["grade", "horizon_dip", str(tmp_path), "--out", str(tmp_path / "graded"), "--quiet"]) == 0
+    assert main(["grade", "horizon_dip", str(tmp_path), "--out", str(tmp_path / "graded"), "--quiet", "--force"]) == 0
+    assert len(load(tmp_path / "graded")["submissions"]) == 1
+
+
+@pytest.mark.parametrize("suffix", ["csv", "xlsx"])
+def test_template_round_trip(tmp_path, suffix, capsys):
+    path = tmp_path / f"t.{suffix}"
+    assert main(["template", "horizon_dip", "--out", str(path)]) == 0
+    if suffix == "csv":
+        rows = list(csv.reader(path.read_text(encoding="utf-8").splitlines()))
+    else:
+        rows = [[c if c is not None else "" for c in r] for r in openpyxl.load_workbook(path).active.iter_rows(values_only=True)]
+    assert rows[0] == ["part", "item", "value", "unit", "note", "description"]
+    items = [(r[0], r[1]) for r in rows[1:]]
+    for needed in [("identity", "student_id"), ("observation", "eye_height"), ("observation", "dip_angle"),
+                   ("observation", "horizon_zenith_angle"), ("observation", "target_distance"),
+                   ("observation", "hidden_height"), ("result", "dip_mean"), ("result", "dip.radius"),
+                   ("result", "hidden_height.radius")]:
+        assert needed in items
+    assert all(r[5] for r in rows[1:])  # every row has its one-line description
+    # The blank template itself grades without error (everything missing).
+    assert main(["check", "horizon_dip", str(path)]) == 0
+    assert main(["template", "horizon_dip", "--out", str(path)]) == 2  # no silent overwrite
+
+
+def test_check_prints_a_table(tmp_path, capsys):
+    p = tmp_path / "g.csv"
+    p.write_bytes(csv_bytes(good_dip_rows()))
+    assert main(["check", "horizon_dip", str(p)]) == 0
+    out = capsys.readouterr().out
+    assert "dip.radius_apparent" in out and "correct" in out and "/ 12 (advisory)" in out
+    assert out.count("correct") >= 4 and "wrong" not in out
+
+
+def test_spec_check_and_list(tmp_path, capsys):
+    assert main(["spec", "list"]) == 0
+    assert "horizon_dip" in capsys.readouterr().out
+    assert main(["spec", "check", "horizon_dip"]) == 0
+    bad = tmp_path / "b.toml"
+    bad.write_text("title = 3\n", encoding="utf-8")
+    assert main(["spec", "check", str(bad)]) == 2
+    err = capsys.readouterr().err
+    assert "b.toml: title: expected a title string, got 3" in err
+
+
+@pytest.mark.parametrize("command", ["grade", "check", "template", "spec", "demo"])
+def test_help_has_an_example(command, capsys):
+    with pytest.raises(SystemExit) as info:
+        main([command, "--help"])
+    assert info.value.code == 0
+    assert "example" in capsys.readouterr().out

@@ -1,0 +1,106 @@
+"""Lab spec validation: every error names the file, the key path and what was expected."""
+
+from pathlib import Path
+
+import pytest
+
+from labcheck.resources import shipped_spec, specs_dir
+from labcheck.spec import SCHEMA_DOC, SpecError, load_spec, parse_spec
+
+DOCS = Path(__file__).resolve().parent.parent / "docs" / "spec.md"
+
+
+def spec_text(**replace):
+    text = shipped_spec("horizon_dip").read_text(encoding="utf-8")
+    for old, new in replace.items():
+        assert old.replace("_", " ") in text or old in text
+    return text
+
+
+def test_every_shipped_spec_is_valid():
+    files = sorted(specs_dir().glob("*.toml"))
+    assert files
+    for f in files:
+        spec = load_spec(f)
+        assert spec.safety and "solar filter" in spec.safety  # the usual cautions
+        assert len(spec.sha256) == 64
+
+
+def test_shipped_spec_values(spec):
+    assert spec.constants_si["k"] == 0.13
+    assert spec.constants_si["reference_radius"] == 6371008.8  # IUGG R1, Moritz (GRS80)
+    assert list(spec.steps)[:2] == ["dip_mean", "dip.radius_apparent"]  # colliding ids prefixed
+    assert spec.steps["dip.radius"].tolerance.relative == 0.005
+
+
+def bad(text: str) -> SpecError:
+    with pytest.raises(SpecError) as info:
+        parse_spec(text.encode(), "my_lab.toml")
+    return info.value
+
+
+def base() -> str:
+    return shipped_spec("horizon_dip").read_text(encoding="utf-8")
+
+
+def test_bad_tolerance_names_key_path_and_expectation():
+    err = bad(base().replace('tolerance = "0.02 arcmin"', 'tolerance = "quick"'))
+    assert str(err).startswith("my_lab.toml: steps.dip_mean.tolerance: ")
+    assert "expected a number with an optional unit" in str(err)
+
+
+def test_percent_step_refuses_a_relative_tolerance():
+    err = bad(base().replace('tolerance = "0.1 pp"', 'tolerance = "0.1 %"', 1))
+    assert 'steps."dip.radius_error_pct".tolerance' in str(err)
+    assert "percentage points" in str(err)
+
+
+def test_missing_step_and_unknown_method_and_all_errors_at_once():
+    text = base().replace('[steps."dip.radius"]\npoints = 2\ntolerance = "0.5 %"\n', "")
+    text = text.replace('methods = ["dip", "hidden_height"]', 'methods = ["dip", "hidden_height", "astrolabe"]')
+    err = bad(text)
+    keys = [k for k, _ in err.problems]
+    assert 'steps."dip.radius"' in keys
+    assert "methods[2]" in keys
+    assert "unknown method 'astrolabe'" in str(err)
+
+
+def test_wrong_unit_kind_for_a_constant():
+    err = bad(base().replace('reference_radius = "6371.0088 km"', 'reference_radius = "6371 arcmin"'))
+    assert "constants.reference_radius" in str(err)
+    assert "expected a length with a unit" in str(err)
+
+
+def test_empty_safety_note_is_refused():
+    import re
+
+    text = re.sub(r'safety = """.*?"""', 'safety = "  "', base(), flags=re.S)
+    assert "safety: must not be empty" in str(bad(text))
+
+
+def test_not_toml():
+    err = bad("id = ")
+    assert "not valid TOML" in str(err)
+
+
+def test_accuracy_bands_must_agree_and_widen():
+    err = bad(base().replace('zero_beyond = "25 %"', 'zero_beyond = "3 %"'))
+    assert "accuracy.zero_beyond: expected a band wider than full_within" in str(err)
+    err = bad(base().replace('zero_beyond = "25 %"', 'zero_beyond = "1500 km"'))
+    assert "both be in % or both lengths" in str(err)
+
+
+def test_unknown_keys_are_reported():
+    err = bad(base() + '\n[extras]\ncolour = "blue"\n')
+    assert "extras: unknown key" in str(err)
+
+
+def test_missing_file():
+    with pytest.raises(SpecError, match="cannot read the file"):
+        load_spec("/nonexistent/lab.toml")
+
+
+def test_docs_cover_every_top_level_key():
+    text = DOCS.read_text(encoding="utf-8")
+    for key in SCHEMA_DOC:
+        assert f"`{key}`" in text, f"docs/spec.md does not document {key}"
