@@ -47,7 +47,7 @@ LAST = ["Ashgrove", "Brindlemoor", "Caskwell", "Dunmarrow", "Eldervane", "Fallow
 PLANTED = {
     3: ("refraction_ignored", "dip.radius"),
     6: ("feet_as_metres", "dip.radius_apparent"),
-    9: ("dip_mean_slip", "dip_mean"),  # transposed digits, carried forward downstream
+    9: ("digits_transposed", "dip_mean"),  # a copying slip, carried forward downstream
     12: ("missing_result", "hidden_height.radius"),
     15: ("unreadable", None),
     18: ("missing_factor_two", "hidden_height.radius_apparent"),

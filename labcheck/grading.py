@@ -166,9 +166,33 @@ def _tolerance_text(rule: StepRule) -> str:
     return rule.tolerance.text
 
 
+def transposed_digits(written: str, right_value: float) -> bool:
+    """True when ``written`` is ``right_value`` (at the same decimals) with two adjacent digits swapped."""
+    s = written.strip().lstrip("+")
+    if not re.fullmatch(r"-?\d+(\.\d+)?", s):
+        return False
+    decimals = len(s.split(".")[1]) if "." in s else 0
+    t = f"{right_value:.{decimals}f}"
+    a, b = s.replace("-", "").replace(".", ""), t.replace("-", "").replace(".", "")
+    if len(a) != len(b) or s.startswith("-") != t.startswith("-") or a == b:
+        return False
+    diff = [i for i in range(len(a)) if a[i] != b[i]]
+    return len(diff) == 2 and diff[1] == diff[0] + 1 and a[diff[0]] == b[diff[1]] and a[diff[1]] == b[diff[0]]
+
+
+_TRANSPOSED = {
+    "id": "digits_transposed",
+    "label": "two digits swapped",
+    "text": "Your value is the right one with two neighbouring digits swapped: a slip when copying a number.",
+}
+
+
 def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, own_inputs: dict | None,
-              expected: float | None, own: float | None) -> dict | None:
-    """Name the known mistake that reproduces ``reported`` within tolerance, or None."""
+              expected: float | None, own: float | None, written: tuple[str, str] | None = None) -> dict | None:
+    """Name the known mistake that reproduces ``reported`` within tolerance, or None.
+
+    ``written`` is the value and unit as the student wrote them, for slips of the pen.
+    """
     step = rule.step
     tol = rule.tolerance
     bases = [("ref", ref_inputs, expected)]
@@ -198,6 +222,11 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
                 continue
             if tol.matches(reported, target * slip.factor):
                 return {"id": slip.id, "label": slip.label, "text": spec.mistakes.get(slip.id, slip.explanation)}
+    if written is not None:
+        text, unit = written
+        for _, _, target in bases:
+            if target is not None and transposed_digits(text, float(from_si(target, unit, step.kind))):
+                return dict(_TRANSPOSED, text=spec.mistakes.get("digits_transposed", _TRANSPOSED["text"]))
     return None
 
 
@@ -295,7 +324,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             rel_pct = abs(diff) / abs(target) * 100 if target else None
             rel = "" if rel_pct is None else f" ({rel_pct:.0f} %)" if rel_pct >= 10 else f" ({rel_pct:.2g} %)"
             explanation = f"Differs from the recomputed value by {diff_text}{rel}; the tolerance is {tol.text}."
-            diagnosis = _diagnose(rule, spec, rep.si, ref_inputs, own_inputs, exp, own)
+            diagnosis = _diagnose(rule, spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
             if diagnosis is None:
                 explanation += (
                     " No known mistake reproduces your value: compare your working with the formula "

@@ -382,7 +382,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     accuracy = _parse_accuracy(acc_raw, c)
 
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
+    from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
+
     known_mistakes = {v.id for m in methods for s in m.steps for v in s.variants}
+    known_mistakes |= {slip.id for slips in GENERIC_SLIPS.values() for slip in slips} | {"digits_transposed"}
     for k, v in mistakes.items():
         if k not in known_mistakes:
             c.add(f"mistakes.{k}", f"unknown mistake id; known: {', '.join(sorted(known_mistakes))}")

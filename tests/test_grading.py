@@ -195,3 +195,22 @@ def test_dms_with_a_blank_unit_is_read_as_dms(spec):
     rec = grade_rows(spec, rows)
     assert not rec["flags"]
     assert [s["verdict"] for s in rec["steps"]] == ["correct"] * 4
+
+
+@pytest.mark.parametrize(
+    "written, right, expected",
+    [("8.16", 8.6067, True), ("6731", 6371.2, True), ("-2.34", -2.43, True), ("8.61", 8.6067, False),
+     ("8.06", 8.6067, False), ("6137", 6371.0, False), ("2.34", -2.43, False), ("1e3", 1000.0, False)],
+)
+def test_transposed_digits(written, right, expected):
+    # Definition of a transposition (common practice in checking copied figures).
+    from labcheck.grading import transposed_digits
+
+    assert transposed_digits(written, right) is expected
+
+
+def test_transposed_mean_is_named(spec):
+    rows = [r if r[1] != "dip_mean" else ("result", "dip_mean", "6.00", "arcmin") for r in good_dip_rows(readings=(6.0, 6.1, 6.1, 6.0, 6.1))]
+    rows = [r if r[1] != "dip_mean" else ("result", "dip_mean", "6.60", "arcmin") for r in rows]  # right: 6.06
+    s = step(grade_rows(spec, rows), "dip_mean")
+    assert s["verdict"] == "wrong" and s["diagnosis"]["id"] == "digits_transposed"
