@@ -25,7 +25,7 @@ import numpy as np
 
 from .reductions import horizon as hz
 
-__all__ = ["PLANTED", "build_demo", "demo_section"]
+__all__ = ["PLANTED", "build_demo", "demo_section", "csv_bytes", "xlsx_bytes"]
 
 TRUE_RADIUS_M = 6371008.8  # IUGG mean radius R1 (Moritz, GRS80)
 SEED = 20261201
@@ -183,7 +183,8 @@ def demo_section() -> list[DemoGroup]:
     return groups
 
 
-def _csv_bytes(rows) -> bytes:
+def csv_bytes(rows) -> bytes:
+    """A submission file's bytes (CSV, UTF-8) from (part, item, value, unit, note) rows."""
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["part", "item", "value", "unit", "note"])
@@ -191,7 +192,8 @@ def _csv_bytes(rows) -> bytes:
     return buf.getvalue().encode("utf-8")
 
 
-def _xlsx_bytes(rows) -> bytes:
+def xlsx_bytes(rows) -> bytes:
+    """A submission file's bytes (XLSX, first sheet) from (part, item, value, unit, note) rows."""
     import openpyxl
 
     wb = openpyxl.Workbook()
@@ -213,9 +215,9 @@ def build_demo(folder: Path) -> tuple[Path, Path]:
         for grp in groups:
             member = f"GEOD2150-B_horizon_dip/{grp.name.replace(' ', '_')}_{grp.student_id}/dip_lab_B{grp.number:02d}.{grp.fmt}"
             if grp.number == 15:  # planted: a workbook damaged in upload
-                data = _xlsx_bytes(grp.rows)[: 700]
+                data = xlsx_bytes(grp.rows)[: 700]
             else:
-                data = _xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else _csv_bytes(grp.rows)
+                data = xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else csv_bytes(grp.rows)
             z.writestr(member, data)
         z.writestr("__MACOSX/GEOD2150-B_horizon_dip/._dip_lab_B01.csv", b"\x00\x05\x16\x07")
     roster_path = folder / "roster.csv"

@@ -1,9 +1,8 @@
-import csv
-import io
 import math
 
 import pytest
 
+from labcheck.demo import csv_bytes as demo_csv_bytes
 from labcheck.ingest import read_rows
 from labcheck.reductions import horizon as hz
 from labcheck.resources import shipped_spec
@@ -19,13 +18,9 @@ def spec():
     return load_spec(shipped_spec("horizon_dip"))
 
 
-def csv_bytes(rows, header=("part", "item", "value", "unit", "note")) -> bytes:
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(header)
-    for r in rows:
-        w.writerow(list(r) + [""] * (len(header) - len(r)))
-    return buf.getvalue().encode("utf-8")
+def csv_bytes(rows) -> bytes:
+    """Rows of 3 to 5 cells, padded to (part, item, value, unit, note)."""
+    return demo_csv_bytes([tuple(r) + ("",) * (5 - len(r)) for r in rows])
 
 
 def good_dip_rows(h=12.0, readings=(5.9, 6.0, 6.1, 6.0, 6.0), sid="s1", name="Test Student"):

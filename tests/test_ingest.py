@@ -1,25 +1,13 @@
 """Reading submissions: CSV, XLSX, folders, zips; caps and unsafe members."""
 
-import io
 import zipfile
 
-import openpyxl
 import pytest
 
+from labcheck.demo import xlsx_bytes
 from labcheck.ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster, read_rows
 
 from conftest import csv_bytes, good_dip_rows
-
-
-def xlsx_bytes(rows) -> bytes:
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws.append(["part", "item", "value", "unit", "note"])
-    for r in rows:
-        ws.append(list(r))
-    buf = io.BytesIO()
-    wb.save(buf)
-    return buf.getvalue()
 
 
 def test_csv_and_xlsx_give_the_same_rows():
