@@ -26,13 +26,13 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
-from .submission import Submission
+from .submission import Reading, Submission
 from .units import format_value, from_si
 
 __all__ = ["grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
@@ -109,10 +109,9 @@ def _evaluate(step: Step, inputs: dict) -> float | None:
             return None
 
 
-def _display(value_si: float | None, rule_unit: str, kind: str) -> float | None:
-    if value_si is None:
-        return None
-    return float(from_si(value_si, rule_unit, kind)) if kind not in ("percent", "ratio") else value_si
+def _display(value_si: float | None, unit: str, kind: str) -> float | None:
+    """An SI value in the display unit (None stays None)."""
+    return None if value_si is None else float(from_si(value_si, unit, kind))
 
 
 def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
@@ -160,10 +159,6 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
                 )
         used[o.name] = (key, readings)
     return values, missing, used, notes
-
-
-def _tolerance_text(rule: StepRule) -> str:
-    return rule.tolerance.text
 
 
 def transposed_digits(written: str, right_value: float) -> bool:
@@ -230,135 +225,216 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
     return None
 
 
-def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[str]]:
-    obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
-    consts = spec.constants_si
-    expected: dict[str, float | None] = {}
-    why_missing: dict[str, str] = {}
-    verdicts: dict[str, str] = {}
-    reported_si: dict[str, float] = {}
-    step_ids = set(method.step_ids)
-    records = []
+@dataclass
+class _MethodRun:
+    """What grading one method of one submission accumulates, step by step."""
 
+    method: Method
+    spec: LabSpec
+    obs: dict  # observation name -> SI value (array for repeated observations)
+    missing_obs: dict[str, str]  # observation name -> why it is missing
+    expected: dict = field(default_factory=dict)  # step id -> recomputed SI value or None
+    why_missing: dict[str, str] = field(default_factory=dict)  # step id -> why it cannot be recomputed
+    reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
+    verdicts: dict[str, str] = field(default_factory=dict)
+
+    def reference_inputs(self, step: Step) -> tuple[dict, list[str]]:
+        """The step's inputs from observations, constants and recomputed earlier steps; and what is missing."""
+        inputs, reasons = {}, []
+        consts = self.spec.constants_si
+        for name in step.inputs:
+            if name in self.method.step_ids:
+                if self.expected.get(name) is not None:
+                    inputs[name] = self.expected[name]
+                else:
+                    reasons.append(self.why_missing.get(name, f"step {name} could not be recomputed"))
+            elif name in consts:
+                inputs[name] = consts[name]
+            elif name in self.obs:
+                inputs[name] = self.obs[name]
+            else:
+                reasons.append(self.missing_obs.get(name, f"{name} was not given"))
+        return inputs, reasons
+
+    def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
+        """The step's inputs with the student's own reported earlier values, if they reported any."""
+        upstream = self.method.upstream_steps(step)
+        if not any(u in self.reported_si for u in upstream):
+            return None
+        own = dict(ref_inputs)
+        for u in upstream:
+            if u in self.reported_si:
+                own[u] = self.reported_si[u]
+        return own if all(n in own for n in step.inputs) else None
+
+
+def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref_inputs, own_inputs, sub: Submission):
+    """(verdict, explanation, diagnosis) for one step; see the module docstring for the rules."""
+    step, tol = rule.step, rule.tolerance
+    if rep is None:
+        if rule.key in sub.bad_items:
+            return "missing", "Your value could not be read (see the notes on your rows).", None
+        return "missing", "Not reported.", None
+    if exp is not None and tol.matches(rep.si, exp):
+        return "correct", f"Matches the value recomputed from your observations (tolerance {tol.text}).", None
+    if own is not None and tol.matches(rep.si, own):
+        wrong_upstream = [u for u in run.method.upstream_steps(step) if run.verdicts.get(u) != "correct"]
+        if not wrong_upstream and exp is not None:
+            return "correct", (
+                f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol.text})."
+            ), None
+        names = ", ".join(run.method.step(u).label for u in wrong_upstream)
+        return "carried", (
+            f"Differs from the recomputed value, but follows correctly from your own value of {names}: "
+            "error carried forward."
+        ), None
+    if exp is None:
+        return "missing", f"Cannot be checked: {run.why_missing.get(step.id, 'inputs missing')}.", None
+    diff = abs(rep.si - exp)
+    rel_pct = diff / abs(exp) * 100 if exp else None
+    rel = "" if rel_pct is None else f" ({rel_pct:.0f} %)" if rel_pct >= 10 else f" ({rel_pct:.2g} %)"
+    explanation = (
+        f"Differs from the recomputed value by {format_value(diff, rule.unit, step.kind, 3)}{rel}; "
+        f"the tolerance is {tol.text}."
+    )
+    diagnosis = _diagnose(rule, run.spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
+    if diagnosis is None:
+        explanation += " No known mistake reproduces your value: compare your working with the formula and the inputs shown."
+    return "wrong", explanation, diagnosis
+
+
+def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
+    """The step's inputs as the sheet shows them: recomputed value, and the student's own where different."""
+    method, spec = run.method, run.spec
+    shown = []
+    for name in step.inputs:
+        entry = {"name": name}
+        if name in method.step_ids:
+            s2 = method.step(name)
+            r2 = spec.steps[spec.step_key(method.id, name)]
+            yours = run.reported_si.get(name)
+            entry.update(label=s2.label, origin="earlier step",
+                         value=format_value(run.expected.get(name), r2.unit, s2.kind),
+                         yours=format_value(yours, r2.unit, s2.kind) if yours is not None else None)
+        elif name in spec.constants_si:
+            label = next(c.label for c in method.constants if c.name == name)
+            entry.update(label=label, origin="constant", value=spec.constants_text[name], yours=None)
+        else:
+            o = method.observation(name)
+            val = run.obs.get(name)
+            if val is None:
+                text = "missing"
+            elif np.ndim(val):
+                text = f"{len(val)} readings"
+            else:
+                text = format_value(val, spec.observations[name].unit, o.kind)
+            entry.update(label=o.label, origin="observation", value=text, yours=None)
+        shown.append(entry)
+    return shown
+
+
+def _accuracy(run: _MethodRun, sub: Submission) -> dict:
+    """The recomputed result against the reference, under the spec's accuracy rule."""
+    method, spec = run.method, run.spec
+    rule = spec.steps[spec.step_key(method.id, method.result_step)]
+    ref = spec.constants_si["reference_radius"]
+    value = run.expected.get(method.result_step)
+    acc = spec.accuracy
+    if value is None:
+        frac, err_pct = 0.0, None
+        text = f"Cannot be judged: {run.why_missing.get(method.result_step, 'the radius could not be recomputed')}."
+    else:
+        frac = acc.score_fraction(value, ref)
+        err_pct = 100.0 * (value - ref) / ref
+        text = (
+            f"Your observations give {format_value(value, rule.unit, 'length', 5)}, "
+            f"{abs(err_pct):.1f} % {'above' if err_pct > 0 else 'below'} the reference "
+            f"{format_value(ref, rule.unit, 'length', 8)}."
+        )
+    rep = sub.results.get(rule.key)
+    return {
+        "method": method.id,
+        "step": rule.key,
+        "unit": rule.unit,
+        "reference": _display(ref, rule.unit, "length"),
+        "recomputed": _display(value, rule.unit, "length"),
+        "reported": _display(rep.si, rule.unit, "length") if rep is not None else None,
+        "error_pct": round(err_pct, 4) if err_pct is not None else None,
+        "rule": acc.text,
+        "points": round(acc.points * frac, 3),
+        "max_points": acc.points,
+        "explanation": text,
+    }
+
+
+def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str]) -> list[dict]:
+    """Field-quality notes: number of repeated readings and their spread against the instrument."""
+    quality = []
+    for name, (_, readings) in used.items():
+        o = method.observation(name)
+        rule = spec.observations[name]
+        n = len(readings)
+        if o.repeated or rule.min_readings > 1:
+            ok = n >= rule.min_readings
+            quality.append({
+                "method": method.id, "observation": name, "ok": ok,
+                "text": f"{o.label}: {n} reading{'s' if n != 1 else ''}"
+                + ("" if ok else f"; the lab asks for at least {rule.min_readings}") + ".",
+            })
+        if n >= 2:
+            sd = float(np.std([r.si for r in readings], ddof=1))
+            text = f"{o.label}: spread of the readings (standard deviation) {format_value(sd, rule.unit, o.kind, 2)}"
+            ok = True
+            if rule.sigma_si:
+                text += f"; the instrument's standard deviation is {rule.sigma_text}"
+                ok = sd <= 3 * rule.sigma_si
+                if not ok:
+                    text += ": more than three times larger. Check for a misread or a moved instrument"
+            quality.append({"method": method.id, "observation": name, "ok": ok, "text": text + "."})
+    quality += [{"method": method.id, "observation": None, "ok": True, "text": note} for note in notes]
+    return quality
+
+
+def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) -> list[dict]:
+    shown = []
+    for name, (key, readings) in used.items():
+        o = method.observation(name)
+        value = float(np.mean(obs[name]))
+        shown.append({
+            "method": method.id,
+            "name": name,
+            "item": key,
+            "label": o.label,
+            "readings": [{"row": r.row, "as_written": f"{r.text} {r.unit}".strip()} for r in readings],
+            "value": format_value(value, spec.observations[name].unit, o.kind, 5),
+            "value_note": "mean" if len(readings) > 1 else "",
+        })
+    return shown
+
+
+def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[dict]]:
+    obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
+    run = _MethodRun(method, spec, obs, missing_obs)
+    records = []
     for rule in spec.steps_of(method):
         step = rule.step
-        # Inputs from the recomputation.
-        ref_inputs: dict = {}
-        reasons = []
-        for name in step.inputs:
-            if name in step_ids:
-                if expected.get(name) is not None:
-                    ref_inputs[name] = expected[name]
-                else:
-                    reasons.append(why_missing.get(name, f"step {name} could not be recomputed"))
-            elif name in consts:
-                ref_inputs[name] = consts[name]
-            elif name in obs:
-                ref_inputs[name] = obs[name]
-            else:
-                reasons.append(missing_obs.get(name, f"{name} was not given"))
+        ref_inputs, reasons = run.reference_inputs(step)
         exp = _evaluate(step, ref_inputs) if not reasons else None
         if not reasons and exp is None:
             reasons.append("the recomputation has no finite value for these inputs (check your observations)")
-        expected[step.id] = exp
+        run.expected[step.id] = exp
         if reasons:
-            why_missing[step.id] = "; ".join(dict.fromkeys(reasons))
-
-        # Inputs from the student's own reported upstream values.
-        upstream = method.upstream_steps(step)
-        own_inputs = None
-        own = None
-        if any(u in reported_si for u in upstream):
-            own_inputs = dict(ref_inputs)
-            ok = True
-            for u in upstream:
-                if u in reported_si:
-                    own_inputs[u] = reported_si[u]
-                elif u not in own_inputs:
-                    ok = False
-            for name in step.inputs:
-                if name not in own_inputs:
-                    ok = False
-            own = _evaluate(step, own_inputs) if ok else None
-            if not ok:
-                own_inputs = None
+            run.why_missing[step.id] = "; ".join(dict.fromkeys(reasons))
+        own_inputs = run.own_inputs(step, ref_inputs)
+        own = _evaluate(step, own_inputs) if own_inputs is not None else None
 
         rep = sub.results.get(rule.key)
-        tol = rule.tolerance
-        max_points = rule.points
-        diagnosis = None
         if rep is not None:
-            reported_si[step.id] = rep.si
-        if rep is None:
-            verdict = "missing"
-            if rule.key in sub.bad_items:
-                explanation = "Your value could not be read (see the notes on your rows)."
-            else:
-                explanation = "Not reported."
-        elif exp is not None and tol.matches(rep.si, exp):
-            verdict = "correct"
-            explanation = f"Matches the value recomputed from your observations (tolerance {tol.text})."
-        elif own is not None and tol.matches(rep.si, own):
-            wrong_upstream = [u for u in upstream if verdicts.get(u) != "correct"]
-            if not wrong_upstream and exp is not None:
-                verdict = "correct"
-                explanation = (
-                    f"Follows from your own earlier values, which were correct within their tolerance "
-                    f"(tolerance {tol.text})."
-                )
-            else:
-                verdict = "carried"
-                names = ", ".join(method.step(u).label for u in wrong_upstream)
-                explanation = (
-                    f"Differs from the recomputed value, but follows correctly from your own value of {names}: "
-                    f"error carried forward."
-                )
-        elif exp is None:
-            verdict = "missing"
-            explanation = f"Cannot be checked: {why_missing.get(step.id, 'inputs missing')}."
-        else:
-            verdict = "wrong"
-            target = exp
-            diff = rep.si - target
-            diff_text = format_value(abs(diff), rule.unit, step.kind, 3)
-            rel_pct = abs(diff) / abs(target) * 100 if target else None
-            rel = "" if rel_pct is None else f" ({rel_pct:.0f} %)" if rel_pct >= 10 else f" ({rel_pct:.2g} %)"
-            explanation = f"Differs from the recomputed value by {diff_text}{rel}; the tolerance is {tol.text}."
-            diagnosis = _diagnose(rule, spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
-            if diagnosis is None:
-                explanation += (
-                    " No known mistake reproduces your value: compare your working with the formula "
-                    "and the inputs shown."
-                )
-        verdicts[step.id] = verdict
-        points = max_points if verdict == "correct" else max_points * spec.carried_fraction if verdict == "carried" else 0.0
-
-        show_own = own is not None and (exp is None or not tol.matches(own, exp))
-        inputs_shown = []
-        for name in step.inputs:
-            entry = {"name": name}
-            if name in step_ids:
-                s2 = method.step(name)
-                r2 = spec.steps[spec.step_key(method.id, name)]
-                entry.update(label=s2.label, origin="earlier step",
-                             value=format_value(expected.get(name), r2.unit, s2.kind),
-                             yours=format_value(reported_si[name], r2.unit, s2.kind) if name in reported_si else None)
-            elif name in consts:
-                entry.update(label=next(c.label for c in method.constants if c.name == name), origin="constant",
-                             value=spec.constants_text[name], yours=None)
-            else:
-                o = method.observation(name)
-                unit = spec.observations[name].unit
-                val = obs.get(name)
-                if val is None:
-                    text = "missing"
-                elif np.ndim(val):
-                    text = f"{len(val)} readings"
-                else:
-                    text = format_value(val, unit, o.kind)
-                entry.update(label=o.label, origin="observation", value=text, yours=None)
-            inputs_shown.append(entry)
-
+            run.reported_si[step.id] = rep.si
+        verdict, explanation, diagnosis = _verdict(run, rule, rep, exp, own, ref_inputs, own_inputs, sub)
+        run.verdicts[step.id] = verdict
+        factor = {"correct": 1.0, "carried": spec.carried_fraction}.get(verdict, 0.0)
+        show_own = own is not None and (exp is None or not rule.tolerance.matches(own, exp))
         records.append({
             "id": rule.key,
             "method": method.id,
@@ -367,93 +443,21 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "unit": rule.unit,
             "formula": step.formula,
             "source": step.source,
-            "inputs": inputs_shown,
+            "inputs": _inputs_shown(run, step),
             "expected": _display(exp, rule.unit, step.kind),
             "reported": _display(rep.si, rule.unit, step.kind) if rep is not None else None,
             "reported_as": f"{rep.text} {rep.unit}".strip() if rep is not None else None,
             "reported_row": rep.row if rep is not None else None,
             "carried_expected": _display(own, rule.unit, step.kind) if show_own else None,
-            "tolerance": _tolerance_text(rule),
+            "tolerance": rule.tolerance.text,
             "verdict": verdict,
-            "points": round(points, 3),
-            "max_points": max_points,
+            "points": round(rule.points * factor, 3),
+            "max_points": rule.points,
             "diagnosis": diagnosis,
             "explanation": explanation,
         })
-
-    # Accuracy: the recomputed result against the reference.
-    result_rule = spec.steps[spec.step_key(method.id, method.result_step)]
-    ref = consts["reference_radius"]
-    value = expected.get(method.result_step)
-    acc = spec.accuracy
-    if value is None:
-        frac = 0.0
-        acc_text = f"Cannot be judged: {why_missing.get(method.result_step, 'the radius could not be recomputed')}."
-        err_pct = None
-    else:
-        frac = acc.score_fraction(value, ref)
-        err_pct = 100.0 * (value - ref) / ref
-        acc_text = (
-            f"Your observations give {format_value(value, result_rule.unit, 'length', 5)}, "
-            f"{abs(err_pct):.1f} % {'above' if err_pct > 0 else 'below'} the reference "
-            f"{format_value(ref, result_rule.unit, 'length', 8)}."
-        )
-    rep = sub.results.get(result_rule.key)
-    accuracy = {
-        "method": method.id,
-        "step": result_rule.key,
-        "unit": result_rule.unit,
-        "reference": _display(ref, result_rule.unit, "length"),
-        "recomputed": _display(value, result_rule.unit, "length"),
-        "reported": _display(rep.si, result_rule.unit, "length") if rep is not None else None,
-        "error_pct": round(err_pct, 4) if err_pct is not None else None,
-        "rule": acc.text,
-        "points": round(acc.points * frac, 3),
-        "max_points": acc.points,
-        "explanation": acc_text,
-    }
-
-    # Field quality: counts and spread of repeated readings.
-    quality = []
-    for name, (key, readings) in used.items():
-        o = method.observation(name)
-        rule_o = spec.observations[name]
-        n = len(readings)
-        if o.repeated or rule_o.min_readings > 1:
-            ok = n >= rule_o.min_readings
-            quality.append({
-                "method": method.id, "observation": name, "ok": ok,
-                "text": f"{o.label}: {n} reading{'s' if n != 1 else ''}"
-                + ("" if ok else f"; the lab asks for at least {rule_o.min_readings}") + ".",
-            })
-        if n >= 2:
-            sd = float(np.std([r.si for r in readings], ddof=1))
-            text = f"{o.label}: spread of the readings (standard deviation) {format_value(sd, rule_o.unit, o.kind, 2)}"
-            if rule_o.sigma_si:
-                text += f"; the instrument's standard deviation is {rule_o.sigma_text}"
-                ok = sd <= 3 * rule_o.sigma_si
-                if not ok:
-                    text += ": more than three times larger. Check for a misread or a moved instrument"
-            else:
-                ok = True
-            quality.append({"method": method.id, "observation": name, "ok": ok, "text": text + "."})
-    for note in obs_notes:
-        quality.append({"method": method.id, "observation": None, "ok": True, "text": note})
-
-    observations_shown = []
-    for name, (key, readings) in used.items():
-        o = method.observation(name)
-        unit = spec.observations[name].unit
-        observations_shown.append({
-            "method": method.id,
-            "name": name,
-            "item": key,
-            "label": o.label,
-            "readings": [{"row": r.row, "as_written": f"{r.text} {r.unit}".strip()} for r in readings],
-            "value": format_value(obs[name] if not np.ndim(obs[name]) else float(np.mean(obs[name])), unit, o.kind, 5),
-            "value_note": "mean" if np.ndim(obs[name]) or len(readings) > 1 else "",
-        })
-    return records, accuracy, quality, observations_shown
+    return (records, _accuracy(run, sub), _quality(method, spec, used, obs_notes),
+            _observations_shown(method, spec, obs, used))
 
 
 def _attempted(method: Method, sub: Submission, spec: LabSpec) -> bool:
