@@ -190,3 +190,26 @@ def test_help_has_an_example(command, capsys):
         main([command, "--help"])
     assert info.value.code == 0
     assert "example" in capsys.readouterr().out
+
+
+def test_a_crash_on_one_file_does_not_stop_the_batch(tmp_path, monkeypatch, capsys):
+    import labcheck.batch as batch
+
+    real = batch.grade_submission
+
+    def flaky(sub, spec):
+        if sub.source.endswith("b.csv"):
+            raise RuntimeError("simulated bug")
+        return real(sub, spec)
+
+    monkeypatch.setattr(batch, "grade_submission", flaky)
+    (tmp_path / "in").mkdir()
+    for name, sid in (("a.csv", "s1"), ("b.csv", "s2"), ("c.csv", "s3")):
+        (tmp_path / "in" / name).write_bytes(csv_bytes(good_dip_rows(sid=sid)))
+    code = main(["grade", "horizon_dip", str(tmp_path / "in"), "--out", str(tmp_path / "out"), "--quiet"])
+    assert code == 1
+    subs = load(tmp_path / "out")["submissions"]
+    assert [s["status"] for s in subs] == ["graded", "unreadable", "graded"]
+    assert "simulated bug" in subs[1]["error"] and "this is a bug" in subs[1]["error"]
+    assert "Traceback" in capsys.readouterr().err  # the bug keeps its traceback for the report
+    assert (tmp_path / "out" / "feedback" / "s3.html").exists()
