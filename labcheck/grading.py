@@ -101,12 +101,18 @@ def _f(x) -> float | None:
     return v if math.isfinite(v) else None
 
 
-def _evaluate(step: Step, inputs: dict) -> float | None:
+def _evaluate(step: Step, inputs: dict) -> tuple[float | None, str | None]:
+    """The step's value, or None with the reason (a step raises ValueError with words for the student)."""
     with np.errstate(all="ignore"):
         try:
-            return _f(step.evaluate(inputs))
-        except (ValueError, ZeroDivisionError, OverflowError):
-            return None
+            value = _f(step.evaluate(inputs))
+        except ValueError as exc:
+            return None, str(exc)
+        except (ZeroDivisionError, OverflowError):
+            value = None
+    if value is None:
+        return None, "the recomputation has no finite value for these inputs (check your observations)"
+    return value, None
 
 
 def _display(value_si: float | None, unit: str, kind: str) -> float | None:
@@ -115,7 +121,11 @@ def _display(value_si: float | None, unit: str, kind: str) -> float | None:
 
 
 def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
-    """Observation name -> SI value (array for repeated ones); and name -> reason it is missing."""
+    """Observation name -> SI value (array for repeated ones); and name -> reason it is missing.
+
+    Also returns, per used observation, the item key and its readings (for
+    the sheet), and notes for the quality section.
+    """
     values: dict = {}
     missing: dict[str, str] = {}
     used: dict[str, tuple[str, list]] = {}
@@ -137,17 +147,25 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
         if found is None:
             tried = [o.name] + [a.name for a in o.alternatives]
             bad = [k for k in sub.bad_items if k.split(".")[-1] in tried]
-            reason = (
+            missing[o.name] = (
                 f"{o.label} ({o.name}): the row(s) given could not be read (see the notes on your rows)"
                 if bad
                 else f"{o.label} ({o.name}) was not given"
             )
-            missing[o.name] = reason
             continue
         key, readings, transform = found
         arr = np.array([r.si for r in readings], dtype=float)
         if transform is not None:
-            arr = np.asarray(transform(arr), dtype=float)
+            try:
+                with np.errstate(all="ignore"):
+                    arr = np.asarray(transform(arr, values), dtype=float)
+            except (ValueError, KeyError) as exc:
+                reason = str(exc) if isinstance(exc, ValueError) else f"it needs {exc.args[0]}"
+                missing[o.name] = f"{o.label} ({o.name}) from {key}: {reason}"
+                continue
+            if not np.all(np.isfinite(arr)):
+                missing[o.name] = f"{o.label} ({o.name}) from {key}: the values give no finite {o.label}"
+                continue
         if o.repeated:
             values[o.name] = arr
         else:
@@ -155,10 +173,31 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
             if len(arr) > 1:
                 notes.append(
                     f"{o.label}: {len(arr)} values were given; their mean "
-                    f"{format_value(values[o.name], spec.observations[o.name].unit, o.kind)} is used."
+                    f"{_observation_text(o, values[o.name], spec)} is used."
                 )
         used[o.name] = (key, readings)
     return values, missing, used, notes
+
+
+def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 4) -> str:
+    if o.kind == "choice":
+        return o.choices[int(round(value_si))]
+    return format_value(value_si, spec.observations[o.name].unit, o.kind, digits)
+
+
+def _constants(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, dict, list[str]]:
+    """The spec's constants, with any a group gave for itself (its own tape); and notes saying so."""
+    consts = dict(spec.constants_si)
+    texts = dict(spec.constants_text)
+    notes = []
+    for c in method.constants:
+        readings = sub.observations.get(c.name)
+        if c.overridable and readings:
+            consts[c.name] = readings[-1].si
+            texts[c.name] = f"{readings[-1].text} {readings[-1].unit}".strip() + " (yours)"
+            notes.append(f"{c.label}: your own value {texts[c.name]} is used instead of the lab's "
+                         f"{spec.constants_text.get(c.name, 'value')}.")
+    return consts, texts, notes
 
 
 def transposed_digits(written: str, right_value: float) -> bool:
@@ -233,6 +272,8 @@ class _MethodRun:
     spec: LabSpec
     obs: dict  # observation name -> SI value (array for repeated observations)
     missing_obs: dict[str, str]  # observation name -> why it is missing
+    consts: dict  # constant name -> SI value (the spec's, or the group's own)
+    consts_text: dict  # constant name -> as shown
     expected: dict = field(default_factory=dict)  # step id -> recomputed SI value or None
     why_missing: dict[str, str] = field(default_factory=dict)  # step id -> why it cannot be recomputed
     reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
@@ -241,7 +282,7 @@ class _MethodRun:
     def reference_inputs(self, step: Step) -> tuple[dict, list[str]]:
         """The step's inputs from observations, constants and recomputed earlier steps; and what is missing."""
         inputs, reasons = {}, []
-        consts = self.spec.constants_si
+        consts = self.consts
         for name in step.inputs:
             if name in self.method.step_ids:
                 if self.expected.get(name) is not None:
@@ -292,7 +333,7 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
         return "missing", f"Cannot be checked: {run.why_missing.get(step.id, 'inputs missing')}.", None
     diff = abs(rep.si - exp)
     rel_pct = diff / abs(exp) * 100 if exp else None
-    rel = "" if rel_pct is None else f" ({rel_pct:.0f} %)" if rel_pct >= 10 else f" ({rel_pct:.2g} %)"
+    rel = "" if rel_pct is None else f" ({_pct_text(rel_pct)})"
     explanation = (
         f"Differs from the recomputed value by {format_value(diff, rule.unit, step.kind, 3)}{rel}; "
         f"the tolerance is {tol.text}."
@@ -316,9 +357,8 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             entry.update(label=s2.label, origin="earlier step",
                          value=format_value(run.expected.get(name), r2.unit, s2.kind),
                          yours=format_value(yours, r2.unit, s2.kind) if yours is not None else None)
-        elif name in spec.constants_si:
-            label = next(c.label for c in method.constants if c.name == name)
-            entry.update(label=label, origin="constant", value=spec.constants_text[name], yours=None)
+        elif name in run.consts:
+            entry.update(label=method.constant(name).label, origin="constant", value=run.consts_text[name], yours=None)
         else:
             o = method.observation(name)
             val = run.obs.get(name)
@@ -327,44 +367,87 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             elif np.ndim(val):
                 text = f"{len(val)} readings"
             else:
-                text = format_value(val, spec.observations[name].unit, o.kind)
+                text = _observation_text(o, val, spec)
             entry.update(label=o.label, origin="observation", value=text, yours=None)
         shown.append(entry)
     return shown
 
 
-def _accuracy(run: _MethodRun, sub: Submission) -> dict:
-    """The recomputed result against the reference, under the spec's accuracy rule."""
+def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]]:
+    """The recomputed result against the method's reference, under the spec's accuracy rule.
+
+    Also returns notes for the instructor comparing a group's observation with
+    the reference's own value of it (e.g. measured and ellipsoid distances).
+    """
     method, spec = run.method, run.spec
+    reference = method.reference
+    if not spec.judges_accuracy(method):
+        return None, []
     rule = spec.steps[spec.step_key(method.id, method.result_step)]
-    ref = spec.constants_si["reference_radius"]
+    kind = rule.step.kind
     value = run.expected.get(method.result_step)
     acc = spec.accuracy
-    if value is None:
+    ref_inputs = {}
+    missing = [run.missing_obs.get(n, f"{n} was not given") for n in reference.inputs
+               if n not in run.obs and n not in run.consts]
+    for n in reference.inputs:
+        ref_inputs[n] = run.obs[n] if n in run.obs else run.consts.get(n)
+    ref_out = None
+    if not missing:
+        with np.errstate(all="ignore"):
+            try:
+                ref_out = reference.func(*(ref_inputs[n] for n in reference.inputs))
+            except ValueError as exc:
+                missing.append(str(exc))
+    ref = _f(ref_out["value"]) if ref_out else None
+    details, notes = [], []
+    if ref_out:
+        for key, label, k, unit in reference.extras:
+            details.append({"label": label, "value": format_value(ref_out[key], unit, k, 8)})
+        for key, obs_name in reference.compare:
+            if obs_name in run.obs and key in ref_out:
+                o = method.observation(obs_name)
+                unit = spec.observations[obs_name].unit
+                mine, theirs = float(np.mean(run.obs[obs_name])), float(ref_out[key])
+                notes.append({
+                    "method": method.id, "observation": obs_name, "ok": True,
+                    "text": f"{o.label}: measured {format_value(mine, unit, o.kind, 6)}; the stations' coordinates "
+                            f"give {format_value(theirs, unit, o.kind, 6)} on the ellipsoid "
+                            f"({100 * (mine - theirs) / theirs:+.2f} %).",
+                })
+    if value is None or ref is None:
         frac, err_pct = 0.0, None
-        text = f"Cannot be judged: {run.why_missing.get(method.result_step, 'the radius could not be recomputed')}."
+        why = run.why_missing.get(method.result_step) if value is None else "; ".join(missing)
+        text = f"Cannot be judged: {why or 'the result could not be recomputed'}."
     else:
         frac = acc.score_fraction(value, ref)
         err_pct = 100.0 * (value - ref) / ref
         text = (
-            f"Your observations give {format_value(value, rule.unit, 'length', 5)}, "
-            f"{abs(err_pct):.1f} % {'above' if err_pct > 0 else 'below'} the reference "
-            f"{format_value(ref, rule.unit, 'length', 8)}."
+            f"Your observations give {format_value(value, rule.unit, kind, 6)}, "
+            f"{_pct_text(abs(err_pct))} {'above' if err_pct > 0 else 'below'} the {reference.label} "
+            f"{format_value(ref, rule.unit, kind, 8)}."
         )
     rep = sub.results.get(rule.key)
     return {
         "method": method.id,
         "step": rule.key,
         "unit": rule.unit,
-        "reference": _display(ref, rule.unit, "length"),
-        "recomputed": _display(value, rule.unit, "length"),
-        "reported": _display(rep.si, rule.unit, "length") if rep is not None else None,
+        "reference_label": reference.label,
+        "reference": _display(ref, rule.unit, kind),
+        "reference_details": details,
+        "reference_explanation": reference.explanation,
+        "recomputed": _display(value, rule.unit, kind),
+        "reported": _display(rep.si, rule.unit, kind) if rep is not None else None,
         "error_pct": round(err_pct, 4) if err_pct is not None else None,
         "rule": acc.text,
         "points": round(acc.points * frac, 3),
         "max_points": acc.points,
         "explanation": text,
-    }
+    }, notes
+
+
+def _pct_text(p: float) -> str:
+    return f"{p:.1f} %" if p >= 1 else f"{p:.2g} %"
 
 
 def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str]) -> list[dict]:
@@ -381,7 +464,7 @@ def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str]) -> lis
                 "text": f"{o.label}: {n} reading{'s' if n != 1 else ''}"
                 + ("" if ok else f"; the lab asks for at least {rule.min_readings}") + ".",
             })
-        if n >= 2:
+        if n >= 2 and o.spread and o.kind != "choice":
             sd = float(np.std([r.si for r in readings], ddof=1))
             text = f"{o.label}: spread of the readings (standard deviation) {format_value(sd, rule.unit, o.kind, 2)}"
             ok = True
@@ -399,14 +482,14 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
     shown = []
     for name, (key, readings) in used.items():
         o = method.observation(name)
-        value = float(np.mean(obs[name]))
+        value = float(np.mean(obs[name])) if o.kind != "choice" else obs[name] if not np.ndim(obs[name]) else obs[name][-1]
         shown.append({
             "method": method.id,
             "name": name,
             "item": key,
             "label": o.label,
             "readings": [{"row": r.row, "as_written": f"{r.text} {r.unit}".strip()} for r in readings],
-            "value": format_value(value, spec.observations[name].unit, o.kind, 5),
+            "value": _observation_text(o, value, spec, 5),
             "value_note": "mean" if len(readings) > 1 else "",
         })
     return shown
@@ -414,19 +497,22 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
 
 def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[dict]]:
     obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
-    run = _MethodRun(method, spec, obs, missing_obs)
+    consts, consts_text, const_notes = _constants(method, sub, spec)
+    run = _MethodRun(method, spec, obs, missing_obs, consts, consts_text)
     records = []
     for rule in spec.steps_of(method):
         step = rule.step
         ref_inputs, reasons = run.reference_inputs(step)
-        exp = _evaluate(step, ref_inputs) if not reasons else None
-        if not reasons and exp is None:
-            reasons.append("the recomputation has no finite value for these inputs (check your observations)")
+        exp = None
+        if not reasons:
+            exp, reason = _evaluate(step, ref_inputs)
+            if reason:
+                reasons.append(reason)
         run.expected[step.id] = exp
         if reasons:
             run.why_missing[step.id] = "; ".join(dict.fromkeys(reasons))
         own_inputs = run.own_inputs(step, ref_inputs)
-        own = _evaluate(step, own_inputs) if own_inputs is not None else None
+        own = _evaluate(step, own_inputs)[0] if own_inputs is not None else None
 
         rep = sub.results.get(rule.key)
         if rep is not None:
@@ -456,8 +542,9 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "diagnosis": diagnosis,
             "explanation": explanation,
         })
-    return (records, _accuracy(run, sub), _quality(method, spec, used, obs_notes),
-            _observations_shown(method, spec, obs, used))
+    accuracy, reference_notes = _accuracy(run, sub)
+    quality = _quality(method, spec, used, obs_notes + const_notes) + reference_notes
+    return records, accuracy, quality, _observations_shown(method, spec, obs, used)
 
 
 def _attempted(method: Method, sub: Submission, spec: LabSpec) -> bool:
@@ -487,7 +574,8 @@ def grade_submission(sub: Submission, spec: LabSpec) -> dict:
     for m in methods:
         s, a, q, o = _grade_method(m, sub, spec)
         steps += s
-        accuracy[m.id] = a
+        if a is not None:
+            accuracy[m.id] = a
         quality += q
         observations += o
     score = sum(s["points"] for s in steps) + sum(a["points"] for a in accuracy.values())

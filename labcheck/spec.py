@@ -30,7 +30,7 @@ SCHEMA_DOC = {
     "observations": "per observation: unit, sigma, min_readings (optional)",
     "steps": "per step key: points, tolerance, unit (required for every step)",
     "grading": "carried_fraction, pass_fraction (optional)",
-    "accuracy": "points, full_within, zero_beyond (required)",
+    "accuracy": "points, full_within, zero_beyond (optional: without it no accuracy is judged)",
     "mistakes": "per mistake id: replacement explanation text (optional)",
     "course": "course name shown on sheets (optional)",
 }
@@ -125,7 +125,7 @@ class LabSpec:
     steps: dict[str, StepRule]  # public key -> rule, in method order
     carried_fraction: float
     pass_fraction: float
-    accuracy: AccuracyRule
+    accuracy: AccuracyRule | None  # None: the lab judges no accuracy
     mistakes: dict[str, str] = field(default_factory=dict)
 
     def step_key(self, method_id: str, step_id: str) -> str:
@@ -134,11 +134,8 @@ class LabSpec:
     def steps_of(self, method: Method) -> list[StepRule]:
         return [r for r in self.steps.values() if r.method.id == method.id]
 
-    @property
-    def max_points_per_method(self) -> dict[str, float]:
-        return {
-            m.id: sum(r.points for r in self.steps_of(m)) + self.accuracy.points for m in self.methods
-        }
+    def judges_accuracy(self, method: Method) -> bool:
+        return self.accuracy is not None and method.reference is not None
 
 
 def public_step_key(methods: list[Method], method_id: str, step_id: str) -> str:
@@ -265,26 +262,31 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         c.add("methods_required", f'expected "any" or "all", got {required!r}')
         required = "any"
 
-    # Constants: every constant any method uses, with a unit of the right kind.
-    constants_raw = c.get(raw, "constants", "", dict, what="a table of constants") or {}
+    # Constants: every constant the methods use (and their references, when accuracy is
+    # judged), with a unit of the right kind; a constant with a documented default may be left out.
+    constants_raw = c.get(raw, "constants", "", dict, required=False, default={}) or {}
     constants_si: dict[str, float] = {}
     constants_text: dict[str, str] = {}
-    needed = {}
+    declared, needed = {}, set()
+    with_reference = "accuracy" in raw
     for m in methods:
         for const in m.constants:
-            needed[const.name] = const
-    for name, const in needed.items():
-        if name not in constants_raw:
-            c.add(f"constants.{name}", f"missing; expected the {const.label} ({const.description})")
+            declared.setdefault(const.name, const)
+        needed |= m.used_constants(with_reference)
+    for name, const in declared.items():
+        text = constants_raw.get(name, const.default)
+        if text is None:
+            if name in needed:
+                c.add(f"constants.{name}", f"missing; expected the {const.label} ({const.description})")
             continue
         try:
-            constants_si[name] = _parse_constant(constants_raw[name], const.kind)
-            constants_text[name] = str(constants_raw[name])
+            constants_si[name] = _parse_constant(text, const.kind)
+            constants_text[name] = str(text) + ("" if name in constants_raw else " (default)")
         except UnitError as exc:
             c.add(f"constants.{name}", str(exc))
     for name in constants_raw:
-        if name not in needed:
-            c.add(f"constants.{name}", f"unknown constant; the methods use: {', '.join(needed) or 'none'}")
+        if name not in declared:
+            c.add(f"constants.{name}", f"unknown constant; the methods use: {', '.join(declared) or 'none'}")
     if "k" in constants_si and not 0.0 <= constants_si["k"] < 1.0:
         c.add("constants.k", f"expected a refraction coefficient between 0 and 1, got {constants_text['k']!r}")
     if "reference_radius" in constants_si and not 6.0e6 < constants_si["reference_radius"] < 6.5e6:
@@ -311,7 +313,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                 c.add(f"{kp}.{key}", "unknown key; expected unit, sigma or min_readings")
         unit = c.get(table, "unit", kp, str, required=False, default=o.unit)
         unit = canonical_unit(unit)
-        if unit not in UNITS.get(o.kind, {}) and not (o.kind == "angle" and unit == "dms"):
+        if o.kind in UNITS and unit not in UNITS[o.kind] and not (o.kind == "angle" and unit == "dms"):
             c.add(f"{kp}.unit", f"expected a {o.kind} unit ({', '.join(sorted(UNITS[o.kind]))}), got {unit!r}")
             unit = o.unit
         sigma_text = c.get(table, "sigma", kp, str, required=False, default=None, what='a standard deviation with a unit, e.g. "20 arcsec"')
@@ -378,8 +380,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     if not 0.0 <= pass_fraction <= 1.0:
         c.add("grading.pass_fraction", f"expected a fraction from 0 to 1, got {pass_fraction}")
 
-    acc_raw = c.get(raw, "accuracy", "", dict, what="a table with points, full_within and zero_beyond") or {}
-    accuracy = _parse_accuracy(acc_raw, c)
+    accuracy = None
+    if "accuracy" in raw:
+        acc_raw = c.get(raw, "accuracy", "", dict, what="a table with points, full_within and zero_beyond") or {}
+        accuracy = _parse_accuracy(acc_raw, c)
 
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
     from .grading import GENERIC_SLIPS  # the generic slips can be reworded too

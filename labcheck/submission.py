@@ -11,9 +11,9 @@ from dataclasses import dataclass, field
 
 from .ingest import RawSubmission, Row
 from .spec import LabSpec
-from .units import UnitError, canonical_unit, looks_dms, parse_value
+from .units import UnitError, canonical_unit, format_value, looks_dms, parse_value
 
-__all__ = ["IDENTITY_FIELDS", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
+__all__ = ["IDENTITY_FIELDS", "ItemSpec", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
 
 IDENTITY_FIELDS = {
     "student_id": "student id (as on the course roster)",
@@ -63,21 +63,39 @@ class Submission:
     bad_items: set[str] = field(default_factory=set)  # items with at least one unreadable row
 
 
-def observation_keys(spec: LabSpec) -> dict[str, tuple[str, str, str]]:
-    """Item key -> (observation name, kind, template unit) for every accepted observation item.
+@dataclass(frozen=True)
+class ItemSpec:
+    """How to read one observation item: its kind, template unit and checks."""
 
-    Keys are the bare name, the ``method.name`` form, and alternative
-    recordings (e.g. ``horizon_zenith_angle``) in both forms.
+    name: str
+    kind: str
+    unit: str
+    hemisphere: bool = False
+    positive: bool = True
+    limits: tuple[float, float] | None = None
+    choices: tuple[str, ...] = ()
+
+
+def observation_keys(spec: LabSpec) -> dict[str, ItemSpec]:
+    """Item key -> how to read it, for every accepted observation item.
+
+    Keys are the bare name, the ``method.name`` form, alternative recordings
+    (e.g. ``horizon_zenith_angle``) in both forms, and constants a group may
+    give for itself (its own tape's constants).
     """
-    keys: dict[str, tuple[str, str, str]] = {}
+    keys: dict[str, ItemSpec] = {}
     for m in spec.methods:
         for o in m.observations:
-            unit = spec.observations[o.name].unit
+            item = ItemSpec(o.name, o.kind, spec.observations[o.name].unit, o.hemisphere, o.positive, o.limits, o.choices)
             for key in (o.name, f"{m.id}.{o.name}"):
-                keys[key] = (o.name, o.kind, unit)
+                keys[key] = item
             for alt in o.alternatives:
+                alt_item = ItemSpec(alt.name, alt.kind or o.kind, alt.unit, o.hemisphere, False)
                 for key in (alt.name, f"{m.id}.{alt.name}"):
-                    keys[key] = (alt.name, o.kind, alt.unit)
+                    keys[key] = alt_item
+        for const in m.constants:
+            if const.overridable:
+                keys[const.name] = ItemSpec(const.name, const.kind, const.unit, positive=False)
     return keys
 
 
@@ -149,19 +167,36 @@ def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
         return
     if not row.value:
         return  # a blank template row
-    name, kind, template_unit = obs_keys[item]
-    unit = _unit_for(row, kind, template_unit)
+    spec_item: ItemSpec = obs_keys[item]
     try:
-        si = float(parse_value(row.value, unit, kind))
+        if spec_item.kind == "choice":
+            unit = ""
+            si = _parse_choice(row.value, spec_item.choices)
+        else:
+            unit = _unit_for(row, spec_item.kind, spec_item.unit)
+            si = float(parse_value(row.value, unit, spec_item.kind, hemisphere=spec_item.hemisphere))
     except UnitError as exc:
         sub.problems.append(Problem(row.number, item, row.value, str(exc)))
         sub.bad_items.add(item)
         return
-    if kind == "length" and si <= 0:
-        sub.problems.append(Problem(row.number, item, row.value, "a height or distance must be greater than zero"))
+    problem = None
+    if spec_item.kind == "length" and spec_item.positive and si <= 0:
+        problem = "a height or distance must be greater than zero"
+    elif spec_item.limits is not None and not spec_item.limits[0] <= si <= spec_item.limits[1]:
+        lo, hi = (format_value(v, unit, spec_item.kind, 6) for v in spec_item.limits)
+        problem = f"outside the physical range {lo} to {hi}"
+    if problem:
+        sub.problems.append(Problem(row.number, item, row.value, problem))
         sub.bad_items.add(item)
         return
     sub.observations.setdefault(item, []).append(Reading(si, row.number, row.value, unit))
+
+
+def _parse_choice(text: str, choices: tuple[str, ...]) -> float:
+    word = text.strip().lower()
+    if word not in choices:
+        raise UnitError(f"expected one of {', '.join(choices)}, got {text!r}")
+    return float(choices.index(word))
 
 
 def _result(sub: Submission, row: Row, item: str, res_keys, ambiguous, spec: LabSpec) -> None:

@@ -71,17 +71,28 @@ _ANGLE = {
     "arcsec": math.pi / (180.0 * 3600.0),
     "gon": math.pi / 200.0,
 }
-_FORCE = {"N": 1.0, "kN": 1000.0, "lbf": 4.4482216152605, "kgf": 9.80665}
+_LBF = 4.4482216152605  # N, NIST SP 811 (from the avoirdupois pound and standard gravity)
+_FORCE = {"N": 1.0, "kN": 1000.0, "lbf": _LBF, "kgf": 9.80665}
+_AREA = {"m2": 1.0, "cm2": 1e-4, "mm2": 1e-6, "in2": 0.0254**2, "ft2": 0.3048**2}
+_PRESSURE = {"Pa": 1.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9, "psi": _LBF / 0.0254**2, "ksi": 1000 * _LBF / 0.0254**2}
+_FORCE_PER_LENGTH = {"N/m": 1.0, "kgf/m": 9.80665, "lbf/ft": _LBF / 0.3048}
+# A coefficient per degree: per kelvin equals per degree Celsius; per degree Fahrenheit is 1.8 per °C.
+_PER_TEMPERATURE = {"/C": 1.0, "/K": 1.0, "/F": 1.8}
 _RATIO = {"1": 1.0, "%": 0.01, "ppm": 1e-6}
 _PERCENT = {"%": 1.0, "pp": 1.0}
 _TEMPERATURE = ("C", "F", "K")
 
-KINDS = ("length", "angle", "force", "temperature", "ratio", "percent", "datetime", "text")
+KINDS = ("length", "angle", "force", "area", "pressure", "force_per_length", "per_temperature",
+         "temperature", "ratio", "percent", "choice", "datetime", "text")
 
 UNITS: dict[str, dict[str, float]] = {
     "length": _LENGTH,
     "angle": _ANGLE,
     "force": _FORCE,
+    "area": _AREA,
+    "pressure": _PRESSURE,
+    "force_per_length": _FORCE_PER_LENGTH,
+    "per_temperature": _PER_TEMPERATURE,
     "ratio": _RATIO,
     "percent": _PERCENT,
     "temperature": {u: math.nan for u in _TEMPERATURE},
@@ -103,6 +114,11 @@ _ALIASES = {
     "grad": "gon", "grads": "gon",
     "°c": "C", "degc": "C", "c": "C", "°f": "F", "degf": "F", "f": "F", "k": "K",
     "n": "N", "kn": "kN", "lb": "lbf", "lbs": "lbf", "percent": "%",
+    "m²": "m2", "mm²": "mm2", "cm²": "cm2", "in²": "in2", "ft²": "ft2", "sq in": "in2", "sq ft": "ft2",
+    "pa": "Pa", "kpa": "kPa", "mpa": "MPa", "gpa": "GPa", "lbf/in2": "psi", "lb/in2": "psi",
+    "n/m": "N/m", "lb/ft": "lbf/ft", "lbs/ft": "lbf/ft",
+    "/°c": "/C", "1/c": "/C", "1/°c": "/C", "per c": "/C", "/°f": "/F", "1/f": "/F", "1/°f": "/F", "per f": "/F",
+    "/k": "/K", "1/k": "/K",
 }
 
 

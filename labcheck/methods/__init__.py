@@ -2,9 +2,9 @@
 
 from __future__ import annotations
 
-from .base import Alternative, Constant, Method, Observation, Step, Variant
+from .base import Alternative, Constant, Method, Observation, Reference, Step, Variant
 from .horizon import DIP, HIDDEN_HEIGHT
 
 METHODS: dict[str, Method] = {m.id: m for m in (DIP, HIDDEN_HEIGHT)}
 
-__all__ = ["METHODS", "Alternative", "Constant", "Method", "Observation", "Step", "Variant"]
+__all__ = ["METHODS", "Alternative", "Constant", "Method", "Observation", "Reference", "Step", "Variant"]

@@ -17,21 +17,25 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
-__all__ = ["Alternative", "Observation", "Constant", "Step", "Variant", "Method", "formula_variant", "input_variant"]
+__all__ = ["Alternative", "Reference", "Observation", "Constant", "Step", "Variant", "Method", "formula_variant", "input_variant"]
 
 
 @dataclass(frozen=True)
 class Alternative:
     """Another way of recording an observation (a theodolite's zenith angle for a dip).
 
-    ``transform`` turns readings of the alternative (SI) into readings of the
-    observation (SI).  Same quantity kind as the observation.
+    ``transform(readings, values)`` turns readings of the alternative (SI)
+    into readings of the observation (SI); ``values`` holds the method's
+    observations gathered so far (declared earlier), for alternatives that
+    need them (a height difference needs its tape reading to become a
+    slope).  ``kind`` defaults to the observation's.
     """
 
     name: str
     description: str
     unit: str
     transform: Callable
+    kind: str | None = None
 
 
 @dataclass(frozen=True)
@@ -49,18 +53,50 @@ class Observation:
     unit: str  # the template's unit unless the spec says otherwise
     description: str
     repeated: bool = False
-    positive: bool = True  # a value <= 0 is a bad row
+    positive: bool = True  # for lengths: a value <= 0 is a bad row
     alternatives: tuple[Alternative, ...] = ()
+    hemisphere: bool = False  # angles: N/S/E/W letters accepted
+    limits: tuple[float, float] | None = None  # physical range in SI; outside is a bad row
+    choices: tuple[str, ...] = ()  # kind 'choice': allowed words, read as their index
+    spread: bool = True  # repeated readings of one quantity (their spread is a quality note), not segments
 
 
 @dataclass(frozen=True)
 class Constant:
-    """A constant the lab spec must give (refraction coefficient, reference radius)."""
+    """A constant the lab spec gives (refraction coefficient, tape constants).
+
+    ``default`` (a spec value string such as ``"0.0000116 /C"``) is used when
+    the spec leaves the constant out.  An ``overridable`` constant may also be
+    given in a submission as an observation row of the same name (a group
+    that used its own tape), in the unit ``unit``.
+    """
 
     name: str
     label: str
     kind: str
     description: str
+    default: str | None = None
+    overridable: bool = False
+    unit: str = ""
+
+
+@dataclass(frozen=True)
+class Reference:
+    """What a method's result is judged against for accuracy.
+
+    ``func`` takes ``inputs`` (observations or constants, SI, in order) and
+    returns a dict with ``value`` (SI) and any extra numbers named in
+    ``extras`` as (key, label, kind, unit).  ``explanation`` tells the student
+    why this is the fair reference.  ``compare`` pairs an extra with an
+    observation to report their difference for the instructor.
+    """
+
+    label: str
+    inputs: tuple[str, ...]
+    func: Callable[..., dict]
+    explanation: str
+    extras: tuple[tuple[str, str, str, str], ...] = ()
+    compare: tuple[tuple[str, str], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -133,6 +169,7 @@ class Method:
     steps: tuple[Step, ...]
     result_step: str  # the step whose value is judged for accuracy
     summary: str = ""
+    reference: Reference | None = None
 
     def __post_init__(self) -> None:
         known = {o.name for o in self.observations} | {c.name for c in self.constants}
@@ -143,6 +180,11 @@ class Method:
             known.add(step.id)
         if self.result_step not in {s.id for s in self.steps}:
             raise ValueError(f"method {self.id}: result step {self.result_step!r} is not a step")
+        if self.reference is not None:
+            base = {o.name for o in self.observations} | {c.name for c in self.constants}
+            for name in self.reference.inputs:
+                if name not in base:
+                    raise ValueError(f"method {self.id}: the reference uses {name!r}, declared nowhere")
 
     def step(self, step_id: str) -> Step:
         for s in self.steps:
@@ -159,6 +201,19 @@ class Method:
     @property
     def step_ids(self) -> tuple[str, ...]:
         return tuple(s.id for s in self.steps)
+
+    def constant(self, name: str) -> Constant:
+        for c in self.constants:
+            if c.name == name:
+                return c
+        raise KeyError(name)
+
+    def used_constants(self, with_reference: bool) -> set[str]:
+        """Constants the steps use (and the reference, when accuracy is judged)."""
+        used = {n for s in self.steps for n in s.inputs if n in {c.name for c in self.constants}}
+        if with_reference and self.reference is not None:
+            used |= {n for n in self.reference.inputs if n in {c.name for c in self.constants}}
+        return used
 
     def upstream_steps(self, step: Step) -> tuple[str, ...]:
         ids = set(self.step_ids)

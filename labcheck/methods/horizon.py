@@ -11,7 +11,7 @@ import math
 import numpy as np
 
 from ..reductions import horizon as hz
-from .base import Alternative, Constant, Method, Observation, Step, formula_variant, input_variant
+from .base import Alternative, Constant, Method, Observation, Reference, Step, formula_variant, input_variant
 
 FT = 0.3048  # international foot, m
 
@@ -80,6 +80,14 @@ _REFRACTION_PLUS = formula_variant(
     lambda radius_apparent, k: (1.0 + k) * radius_apparent,
 )
 
+_MEAN_RADIUS_REFERENCE = Reference(
+    "reference radius",
+    ("reference_radius",),
+    lambda reference_radius: {"value": reference_radius},
+    "The reference is the radius set in the lab spec (the IUGG mean radius unless your instructor chose a local one); "
+    "the Earth's radius of curvature varies by about 1 % with latitude and direction, far less than this method's error.",
+)
+
 _RADIUS_ERROR_STEP = Step(
     "radius_error_pct",
     "error against the reference radius",
@@ -141,7 +149,7 @@ DIP = Method(
                     "one theodolite reading of the zenith angle of the horizon (dip = z − 90°); "
                     "use instead of dip_angle",
                     "dms",
-                    hz.dip_from_zenith_angle,
+                    lambda zenith_angles, values: hz.dip_from_zenith_angle(zenith_angles),
                 ),
             ),
         ),
@@ -199,6 +207,7 @@ DIP = Method(
         _RADIUS_ERROR_STEP,
     ),
     result_step="radius",
+    reference=_MEAN_RADIUS_REFERENCE,
 )
 
 
@@ -280,4 +289,5 @@ HIDDEN_HEIGHT = Method(
         _RADIUS_ERROR_STEP,
     ),
     result_step="radius",
+    reference=_MEAN_RADIUS_REFERENCE,
 )
