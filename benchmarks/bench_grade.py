@@ -21,13 +21,13 @@ import tracemalloc
 from pathlib import Path
 
 from labcheck.batch import grade_section
-from labcheck.demo import demo_section
+from labcheck.demo.dip import dip_section
 from labcheck.resources import shipped_spec
 from labcheck.spec import load_spec
 
 
 def write_section(folder: Path, n: int) -> None:
-    groups = [g for g in demo_section() if g.number != 15]
+    groups = [g for g in dip_section() if g.number != 15]
     for i in range(n):
         g = groups[i % len(groups)]
         rows = [(p, it, f"bench-{i:06d}" if it == "student_id" else v, u, note) for p, it, v, u, note in g.rows]

@@ -249,9 +249,9 @@ def _unique_sheet_name(student_id: str, used: set[str]) -> str:
 
 def _summary(record: dict, spec: LabSpec) -> dict:
     """The slim part of a record the gradebook and section summary need."""
-    radii = {}
+    results = {}  # method -> (recomputed result, its reference, unit) for the section's accuracy plot
     for mid, acc in record.get("accuracy", {}).items():
-        radii[mid] = (acc["recomputed"], acc["reference"])
+        results[mid] = (acc["recomputed"], acc["reference"], acc["unit"])
     return {
         "student_id": record.get("student_id") or "",
         "name": record.get("name") or "",
@@ -265,6 +265,6 @@ def _summary(record: dict, spec: LabSpec) -> dict:
         "unmatched": record.get("unmatched", False),
         "verdicts": [(s["id"], s["verdict"], s["diagnosis"]["label"] if s["diagnosis"] else None)
                      for s in record.get("steps", [])],
-        "radii": radii,
+        "results": results,
         "gradebook": gradebook_row(record, spec),
     }

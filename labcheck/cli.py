@@ -127,14 +127,14 @@ def cmd_check(args) -> int:
     print(f"{spec.title}: {p.name}  ({record['name'] or '?'}, {record['student_id'] or 'no student_id'})")
     for f in record["flags"]:
         print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
-    from .render import fmt_number
+    from .render import fmt_fixed
 
     head = f"  {'step':<32} {'recomputed':>14} {'yours':>14}  {'verdict':<16} {'points':>7}"
     print(head)
     print("  " + "-" * (len(head) - 2))
     for s in record["steps"]:
-        exp = f"{fmt_number(s['expected'])} {s['unit']}" if s["expected"] is not None else "—"
-        rep = f"{fmt_number(s['reported'])} {s['unit']}" if s["reported"] is not None else "—"
+        exp = fmt_fixed(s["expected"], s["decimals"], s["unit"])
+        rep = fmt_fixed(s["reported"], s["decimals"], s["unit"])
         verdict = c(f"{s['verdict']:<16}", colours[s["verdict"]])
         print(f"  {s['id']:<32} {exp:>14} {rep:>14}  {verdict} {s['points']:>3g}/{s['max_points']:<3g}")
         if s["diagnosis"]:
@@ -179,30 +179,31 @@ def cmd_spec(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    from .demo import build_demo
+    from .demo import SECTIONS, build_demo
 
     out = Path(args.out)
     if out.exists() and any(out.iterdir()):
         if (out / DEMO_MARKER).exists() or args.force:
-            for name in ("graded", "section_B_submissions.zip", "roster.csv"):
-                target = out / name
-                if target.is_dir():
-                    shutil.rmtree(target)
-                elif target.exists():
-                    target.unlink()
+            for section in SECTIONS:
+                if (out / section.folder).is_dir():
+                    shutil.rmtree(out / section.folder)
         else:
             raise OutputExistsError(f"{out} is not empty and is not an earlier demo; choose another --out or add --force")
     out.mkdir(parents=True, exist_ok=True)
     (out / DEMO_MARKER).write_text("made by labcheck demo; safe to delete\n", encoding="utf-8")
-    zip_path, roster = build_demo(out)
-    spec = load_spec(shipped_spec("horizon_dip"))
-    print(f"Demo: an invented section of 24 groups, {zip_path.name} with roster {roster.name}")
-    total = count_inputs([zip_path])
-    progress = None if args.quiet else _progress(total, sys.stderr)
-    run = grade_section(spec, [zip_path], out / "graded", roster, force=True, progress=progress)
-    _print_summary(run, spec, out / "graded")
-    print("  (the demo plants an unreadable file and a student with no submission: exit status 1 is expected)")
-    return run.exit_code
+    worst = 0
+    for section in SECTIONS:
+        folder = out / section.folder
+        zip_path, roster = build_demo(folder, section)
+        spec = load_spec(shipped_spec(section.lab))
+        print(f"\nDemo section {section.code}: {zip_path.name} with {roster.name}")
+        progress = None if args.quiet else _progress(count_inputs([zip_path]), sys.stderr)
+        run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress)
+        _print_summary(run, spec, folder / "graded")
+        worst = max(worst, run.exit_code)
+    print(f"\nStart with {out / SECTIONS[0].folder / 'graded' / 'section.html'}")
+    print("(the demo plants unreadable files and students with no submission: exit status 1 is expected)")
+    return worst
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -247,7 +248,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.set_defaults(func=cmd_spec)
 
     p = sub.add_parser("demo", help="build and grade the bundled demo section", epilog=EXAMPLES["demo"],
-                       formatter_class=fmt, description="Generate an invented section (seeded: the same every time), grade it, and say where the sheets are.")
+                       formatter_class=fmt, description="Generate invented sections of every shipped lab (seeded: the same every time), grade them, and say where the sheets are.")
     p.add_argument("--out", default="labcheck-demo", metavar="DIR", help="folder for the demo (default: ./labcheck-demo)")
     p.add_argument("--force", action="store_true", help="use DIR even if it holds other files")
     p.add_argument("--quiet", action="store_true", help="no progress bar")

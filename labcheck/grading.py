@@ -33,7 +33,7 @@ import numpy as np
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
-from .units import format_value, from_si
+from .units import UNITS, format_value, from_si
 
 __all__ = ["grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
@@ -115,6 +115,32 @@ def _evaluate(step: Step, inputs: dict) -> tuple[float | None, str | None]:
     return value, None
 
 
+def display_decimals(rule: StepRule, value_display: float | None) -> int:
+    """Decimals to show a step's values with: one more than the tolerance's resolution.
+
+    So that a student can always see a difference the grader acts on.
+    """
+    tol = rule.tolerance
+    if tol.relative is not None:
+        if not value_display:
+            return 6
+        resolution = tol.relative * abs(value_display)
+    else:
+        resolution = float(from_si(tol.absolute_si, rule.unit, rule.step.kind)) if rule.step.kind in UNITS else tol.absolute_si
+    if not resolution or not math.isfinite(resolution):
+        return 6
+    return int(min(12, max(0, math.ceil(-math.log10(resolution)) + 1)))
+
+
+def format_step_value(value_si: float | None, rule: StepRule, decimals: int) -> str:
+    """A step's value in its display unit with ``decimals`` decimals and the unit."""
+    if value_si is None:
+        return "—"
+    v = float(from_si(value_si, rule.unit, rule.step.kind))
+    text = f"{v:.{decimals}f}"
+    return f"{text} {rule.unit}" if rule.unit not in ("", "1") else text
+
+
 def _display(value_si: float | None, unit: str, kind: str) -> float | None:
     """An SI value in the display unit (None stays None)."""
     return None if value_si is None else float(from_si(value_si, unit, kind))
@@ -179,10 +205,11 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
     return values, missing, used, notes
 
 
-def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 4) -> str:
+def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 6) -> str:
+    """An observation's value as shown: coordinates to 0.000001° or better, others to ``digits`` figures."""
     if o.kind == "choice":
         return o.choices[int(round(value_si))]
-    return format_value(value_si, spec.observations[o.name].unit, o.kind, digits)
+    return format_value(value_si, spec.observations[o.name].unit, o.kind, 9 if o.hemisphere else digits)
 
 
 def _constants(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, dict, list[str]]:
@@ -334,8 +361,9 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     diff = abs(rep.si - exp)
     rel_pct = diff / abs(exp) * 100 if exp else None
     rel = "" if rel_pct is None else f" ({_pct_text(rel_pct)})"
+    decimals = display_decimals(rule, _display(exp, rule.unit, step.kind))
     explanation = (
-        f"Differs from the recomputed value by {format_value(diff, rule.unit, step.kind, 3)}{rel}; "
+        f"Differs from the recomputed value by {format_step_value(diff, rule, decimals)}{rel}; "
         f"the tolerance is {tol.text}."
     )
     diagnosis = _diagnose(rule, run.spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
@@ -354,9 +382,11 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             s2 = method.step(name)
             r2 = spec.steps[spec.step_key(method.id, name)]
             yours = run.reported_si.get(name)
+            exp2 = run.expected.get(name)
+            dec = display_decimals(r2, _display(exp2 if exp2 is not None else yours, r2.unit, s2.kind))
             entry.update(label=s2.label, origin="earlier step",
-                         value=format_value(run.expected.get(name), r2.unit, s2.kind),
-                         yours=format_value(yours, r2.unit, s2.kind) if yours is not None else None)
+                         value=format_step_value(exp2, r2, dec),
+                         yours=format_step_value(yours, r2, dec) if yours is not None else None)
         elif name in run.consts:
             entry.update(label=method.constant(name).label, origin="constant", value=run.consts_text[name], yours=None)
         else:
@@ -365,7 +395,7 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             if val is None:
                 text = "missing"
             elif np.ndim(val):
-                text = f"{len(val)} readings"
+                text = f"{len(val)} values" if not o.spread else f"{len(val)} readings"
             else:
                 text = _observation_text(o, val, spec)
             entry.update(label=o.label, origin="observation", value=text, yours=None)
@@ -482,15 +512,19 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
     shown = []
     for name, (key, readings) in used.items():
         o = method.observation(name)
-        value = float(np.mean(obs[name])) if o.kind != "choice" else obs[name] if not np.ndim(obs[name]) else obs[name][-1]
+        if o.repeated and not o.spread:  # one value per span: no single value stands for them
+            text, note = f"{len(readings)} value{'s' if len(readings) != 1 else ''}", "one per span"
+        else:
+            value = obs[name] if o.kind == "choice" else float(np.mean(obs[name]))
+            text, note = _observation_text(o, value, spec, 6), "mean" if len(readings) > 1 else ""
         shown.append({
             "method": method.id,
             "name": name,
             "item": key,
             "label": o.label,
             "readings": [{"row": r.row, "as_written": f"{r.text} {r.unit}".strip()} for r in readings],
-            "value": _observation_text(o, value, spec, 5),
-            "value_note": "mean" if len(readings) > 1 else "",
+            "value": text,
+            "value_note": note,
         })
     return shown
 
@@ -536,6 +570,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "reported_row": rep.row if rep is not None else None,
             "carried_expected": _display(own, rule.unit, step.kind) if show_own else None,
             "tolerance": rule.tolerance.text,
+            "decimals": display_decimals(rule, _display(exp if exp is not None else (rep.si if rep else None), rule.unit, step.kind)),
             "verdict": verdict,
             "points": round(rule.points * factor, 3),
             "max_points": rule.points,

@@ -18,8 +18,9 @@ import pandas as pd
 from . import __version__
 from .resources import templates_dir
 from .spec import LabSpec
+from .units import to_si
 
-__all__ = ["Renderer", "fmt_number", "VERDICT_WORDS"]
+__all__ = ["Renderer", "fmt_number", "fmt_fixed", "VERDICT_WORDS"]
 
 VERDICT_WORDS = {
     "correct": "correct",
@@ -44,6 +45,19 @@ def fmt_number(value, digits: int = 5) -> str:
     magnitude = math.floor(math.log10(abs(v)))
     decimals = max(0, digits - 1 - magnitude)
     return f"{v:,.{decimals}f}".replace(",", "\u2009")
+
+
+def fmt_fixed(value, decimals: int, unit: str = "") -> str:
+    """A value with a fixed number of decimals (thin-space thousands) and its unit, or a dash."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "—"
+    v = float(value)
+    if v != 0 and abs(v) < 1e-3:  # tiny values (a haversine) read better as 6.703e-07
+        figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
+        text = f"{v:.{min(figures, 12) - 1}e}"
+    else:
+        text = f"{v:,.{decimals}f}".replace(",", "\u2009")
+    return f"{text} {unit}" if unit and unit != "1" else text
 
 
 def _points(p) -> str:
@@ -80,6 +94,7 @@ class Renderer:
                 if s["method"] != m.id:
                     continue
                 unit = s["unit"]
+                dec = s["decimals"]
                 steps.append({
                     "key": s["id"],
                     "label": s["label"],
@@ -94,10 +109,10 @@ class Renderer:
                         }
                         for i in s["inputs"]
                     ],
-                    "expected": f"{fmt_number(s['expected'])} {unit}" if s["expected"] is not None else "—",
-                    "reported": f"{fmt_number(s['reported'])} {unit}" if s["reported"] is not None else "—",
+                    "expected": fmt_fixed(s["expected"], dec, unit),
+                    "reported": fmt_fixed(s["reported"], dec, unit),
                     "reported_as": s["reported_as"] or "",
-                    "carried": f"{fmt_number(s['carried_expected'])} {unit}" if s["carried_expected"] is not None else "",
+                    "carried": fmt_fixed(s["carried_expected"], dec, unit) if s["carried_expected"] is not None else "",
                     "tolerance": s["tolerance"],
                     "verdict": s["verdict"],
                     "verdict_words": VERDICT_WORDS[s["verdict"]],
@@ -117,6 +132,9 @@ class Renderer:
                     "rule": acc["rule"],
                     "points": f"{_points(acc['points'])} / {_points(acc['max_points'])}",
                     "reported": f"{fmt_number(acc['reported'])} {acc['unit']}" if acc["reported"] is not None else "not reported",
+                    "reference_label": acc["reference_label"],
+                    "reference_details": acc["reference_details"],
+                    "reference_explanation": acc["reference_explanation"],
                 },
                 "quality": [q for q in record["quality"] if q["method"] == m.id],
             })
@@ -147,7 +165,7 @@ class Renderer:
         n_pass = sum(p >= pass_pct - 1e-9 for p in percents)
 
         step_rows = self._step_table(graded)
-        radius_plot = self._radius_plot(graded)
+        radius_plot = self._accuracy_plot(graded)
         histogram = self._histogram(percents, pass_pct)
 
         students = []
@@ -218,66 +236,74 @@ class Renderer:
             })
         return out
 
-    def _radius_plot(self, graded: list[dict]) -> dict | None:
-        """Coordinates for an SVG dot plot of each method's recomputed radius against the reference."""
-        methods = [m for m in self.spec.methods if any(m.id in s["radii"] for s in graded)]
-        if not methods:
-            return None
-        ref = None
-        values = []
-        for s in graded:
-            for mid, (value, reference) in s["radii"].items():
-                ref = reference
-                if value is not None:
-                    values.append(value)
-        if ref is None:
-            return None
+    def _accuracy_plot(self, graded: list[dict]) -> dict | None:
+        """Coordinates for an SVG dot plot: each group's recomputed result against its reference, in percent.
+
+        Each group is placed by its own error, (result − reference)/reference,
+        because references may differ between groups (the ellipsoid's radius
+        along each group's own line).
+        """
         acc = self.spec.accuracy
+        methods = [m for m in self.spec.methods if any(m.id in s["results"] for s in graded)]
+        if acc is None or not methods:
+            return None
+        errors = {}
+        references = []
+        for m in methods:
+            pts = []
+            for s in graded:
+                value, ref, unit = s["results"].get(m.id, (None, None, None))
+                if value is not None and ref:
+                    pts.append((100.0 * (value - ref) / ref, s, value, unit))
+                    references.append(ref)
+            errors[m.id] = pts
+        if not references:
+            return None
         if acc.kind == "relative":
-            zero_half = acc.zero_beyond * ref
-            full_half = acc.full_within * ref
-        else:
-            zero_half, full_half = acc.zero_beyond / 1000.0, acc.full_within / 1000.0
-        span = max([zero_half * 1.3] + [abs(v - ref) * 1.05 for v in values])
-        lo, hi = ref - span, ref + span
+            full_pct, zero_pct = 100 * acc.full_within, 100 * acc.zero_beyond
+            band_note = ""
+        else:  # absolute bands: drawn at the median reference
+            unit = next(u for pts in errors.values() for _, _, _, u in pts)
+            median_ref_si = float(to_si(float(np.median(references)), unit, "length"))
+            full_pct, zero_pct = 100 * acc.full_within / median_ref_si, 100 * acc.zero_beyond / median_ref_si
+            band_note = " (bands drawn for the median reference)"
+        all_err = [e for pts in errors.values() for e, *_ in pts]
+        span = max([zero_pct * 1.3] + [abs(e) * 1.05 for e in all_err])
+        span = min(span, max(zero_pct * 4, 1e-9))  # far outliers sit at the edge, marked
         width, left, right = 860, 190, 20
         row_h, top = 56, 30
         height = top + row_h * len(methods) + 40
 
-        def x(v):
-            v = min(max(v, lo), hi)
-            return round(left + (v - lo) / (hi - lo) * (width - left - right), 1)
+        def x(e):
+            e = min(max(e, -span), span)
+            return round(left + (e + span) / (2 * span) * (width - left - right), 1)
 
         rows = []
         for i, m in enumerate(methods):
             y = top + row_h * i + row_h / 2
             dots = []
-            pts = [s for s in graded if m.id in s["radii"] and s["radii"][m.id][0] is not None]
-            for j, s in enumerate(pts):
-                v = s["radii"][m.id][0]
+            for j, (e, s, value, unit) in enumerate(errors[m.id]):
                 jitter = ((j * 7) % 11 - 5) * 3.0
                 dots.append({
-                    "x": x(v), "y": round(y + jitter, 1),
-                    "clipped": v < lo or v > hi,
-                    "title": f"{s['group'] or s['student_id']}: {fmt_number(v)} km",
+                    "x": x(e), "y": round(y + jitter, 1), "clipped": abs(e) > span,
+                    "title": f"{s['group'] or s['student_id']}: {fmt_number(value)} {unit} ({e:+.3g} %)",
                 })
-            rows.append({"label": m.title, "y": y, "label_y": y + 4, "dots": dots, "n": len(pts)})
+            rows.append({"label": m.title, "y": y, "label_y": y + 4, "dots": dots, "n": len(dots)})
         ticks = []
-        step = _nice_step((hi - lo) / 6)
-        t = math.ceil(lo / step) * step
-        while t <= hi:
-            ticks.append({"x": x(t), "label": fmt_number(t, 4)})
+        step = _nice_step(2 * span / 6)
+        t = math.ceil(-span / step) * step
+        while t <= span + 1e-12:
+            ticks.append({"x": x(t), "label": f"{t:+g} %" if abs(t) > 1e-12 else "0"})
             t += step
+        bottom = top + row_h * len(methods)
         return {
             "width": width, "height": height, "left": left, "right_edge": width - right,
-            "top": top - 10, "bottom": top + row_h * len(methods),
-            "ref_x": x(ref), "ref_label": f"reference {fmt_number(ref, 8)} km",
-            "full_x0": x(ref - full_half), "full_w": round(x(ref + full_half) - x(ref - full_half), 1),
-            "zero_x0": x(ref - zero_half), "zero_w": round(x(ref + zero_half) - x(ref - zero_half), 1),
-            "rows": rows, "ticks": ticks, "axis_y": top + row_h * len(methods) + 16,
-            "band_h": row_h * len(methods) + 10, "ref_text_x": x(ref) + 4, "ref_text_y": top,
-            "tick_y2": top + row_h * len(methods) + 4,
-            "band_text": f"inner band: full accuracy points ({self.spec.accuracy.text})",
+            "top": top - 10, "bottom": bottom, "band_h": row_h * len(methods) + 10,
+            "ref_x": x(0.0), "ref_text_x": x(0.0) + 4, "ref_text_y": top, "ref_label": "reference",
+            "full_x0": x(-full_pct), "full_w": round(x(full_pct) - x(-full_pct), 1),
+            "zero_x0": x(-zero_pct), "zero_w": round(x(zero_pct) - x(-zero_pct), 1),
+            "rows": rows, "ticks": ticks, "axis_y": bottom + 16, "tick_y2": bottom + 4,
+            "band_text": f"inner band: full accuracy points ({acc.text}){band_note}",
         }
 
     def _histogram(self, percents: list[float], pass_pct: float) -> dict | None:

@@ -8,7 +8,7 @@ import openpyxl
 import pytest
 
 from labcheck.cli import main
-from labcheck.demo import MISSING_STUDENT, PLANTED
+from labcheck.demo import SECTIONS
 from labcheck.outputs import neutralise_cell
 
 from conftest import csv_bytes, good_dip_rows
@@ -25,29 +25,26 @@ def load(out):
     return json.loads((out / "results.json").read_text(encoding="utf-8"))
 
 
-def test_demo_end_to_end(demo):
+@pytest.mark.parametrize("section", SECTIONS, ids=lambda s: s.lab)
+def test_demo_end_to_end(demo, section):
     out, code = demo
-    graded = out / "graded"
-    assert code == 1  # one unreadable file and one missing student, planted
+    assert code == 1  # unreadable files and missing students are planted
+    folder = out / section.folder
+    graded = folder / "graded"
     results = load(graded)
+    assert results["lab"] == section.lab
     subs = results["submissions"]
-    roster = list(csv.DictReader(open(out / "roster.csv", encoding="utf-8")))
+    roster = list(csv.DictReader(open(folder / "roster.csv", encoding="utf-8")))
     gradebook = list(csv.DictReader(open(graded / "gradebook.csv", encoding="utf-8")))
     # A gradebook row per roster entry, and a sheet per graded group.
     assert sorted(r["student_id"] for r in gradebook) == sorted(r["student_id"] for r in roster)
     sheets = sorted(p.stem for p in (graded / "feedback").glob("*.html"))
     assert sheets == sorted(s["student_id"] for s in subs if s["status"] == "graded")
-    assert len(sheets) == 23
     by_id = {s["student_id"]: s for s in subs}
+    prefix = next(iter(by_id))[:-3]
     # Every planted mistake is found where it was planted.
-    for group, (mistake, key) in PLANTED.items():
-        rec = by_id[f"b2150-{group:03d}"]
-        if mistake == "unreadable":
-            assert rec["status"] == "unreadable" and rec["error"]
-            continue
-        if mistake == "bad_row":
-            assert any(f["item"] == key for f in rec["flags"])
-            continue
+    for group, (mistake, key) in section.planted.items():
+        rec = by_id[f"{prefix}{group:03d}"]
         step = next(s for s in rec["steps"] if s["id"] == key)
         if mistake == "missing_result":
             assert step["verdict"] == "missing"
@@ -55,28 +52,38 @@ def test_demo_end_to_end(demo):
         assert step["verdict"] == "wrong" and step["diagnosis"]["id"] == mistake, (group, step)
         if mistake == "digits_transposed":  # and the slip is carried forward, not punished twice
             assert next(s for s in rec["steps"] if s["id"] == "dip.radius_apparent")["verdict"] == "carried"
-    assert by_id[MISSING_STUDENT[0]]["status"] == "missing"
+    for group in section.unreadable:
+        rec = by_id[f"{prefix}{group:03d}"]
+        assert rec["status"] == "unreadable" and rec["error"]
+    for group, item in section.bad_rows.items():
+        assert any(f["item"] == item for f in by_id[f"{prefix}{group:03d}"]["flags"])
+    # Groups without a planted mistake: every step correct.
+    planted = set(section.planted) | section.unreadable
+    for rec in subs:
+        if rec["status"] == "graded" and int(rec["student_id"][-3:]) not in planted:
+            assert all(s["verdict"] == "correct" for s in rec["steps"]), rec["student_id"]
+    if section.missing_student:
+        assert by_id[section.missing_student[0]]["status"] == "missing"
     # Every input file is accounted for: graded, unreadable or skipped.
-    with zipfile.ZipFile(out / "section_B_submissions.zip") as z:
-        members = {f"section_B_submissions.zip/{n}" for n in z.namelist()}
+    with zipfile.ZipFile(folder / section.zip_name) as z:
+        members = {f"{section.zip_name}/{n}" for n in z.namelist()}
     accounted = {s["submission"] for s in subs if s["submission"]} | {s["file"] for s in results["skipped"]}
     assert members == accounted
 
 
 def test_demo_sheets_carry_safety_and_escape_student_text(demo):
     out, _ = demo
-    html = (out / "graded" / "feedback" / "b2150-005.html").read_text(encoding="utf-8")
+    html = (out / "horizon_dip" / "graded" / "feedback" / "b2150-005.html").read_text(encoding="utf-8")
     assert "solar filter" in html and "licensed surveyor" in html
     assert "<b>check with TA</b>" not in html
     assert "&lt;b&gt;check with TA&lt;/b&gt; &amp; redo?" in html
-    section = (out / "graded" / "section.html").read_text(encoding="utf-8")
+    section = (out / "horizon_dip" / "graded" / "section.html").read_text(encoding="utf-8")
     assert "<svg" in section and "not a valid XLSX workbook" in section
 
 
 def test_demo_is_the_same_every_time(tmp_path):
-    from labcheck.demo import demo_section
-
-    assert [g.rows for g in demo_section()] == [g.rows for g in demo_section()]
+    for section in SECTIONS:
+        assert [g.rows for g in section.generate()] == [g.rows for g in section.generate()]
 
 
 def test_gradebook_neutralises_formulas(tmp_path, capsys):

@@ -3,8 +3,9 @@
 from __future__ import annotations
 
 from .base import Alternative, Constant, Method, Observation, Reference, Step, Variant
+from .baseline import BASELINE_RADIUS, ODOMETER, TAPED
 from .horizon import DIP, HIDDEN_HEIGHT
 
-METHODS: dict[str, Method] = {m.id: m for m in (DIP, HIDDEN_HEIGHT)}
+METHODS: dict[str, Method] = {m.id: m for m in (DIP, HIDDEN_HEIGHT, TAPED, ODOMETER, BASELINE_RADIUS)}
 
 __all__ = ["METHODS", "Alternative", "Constant", "Method", "Observation", "Reference", "Step", "Variant"]

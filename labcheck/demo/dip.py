@@ -1,4 +1,4 @@
-"""The bundled demo: an invented section of the dip lab, with planted mistakes.
+"""Demo section B: the dip lab, with planted mistakes.
 
 Scenario (all invented): the course "Field Methods in Geodesy", section B,
 observes from the stations on Harrowby Bluff over Tamsin Sound.  Groups
@@ -14,18 +14,14 @@ mistakes.  The random generator is seeded: the same demo every time.
 
 from __future__ import annotations
 
-import csv
-import io
 import math
-import zipfile
-from dataclasses import dataclass, field
-from pathlib import Path
 
 import numpy as np
 
-from .reductions import horizon as hz
+from ..reductions import horizon as hz
+from .common import DemoGroup, dms, num, person, sig
 
-__all__ = ["PLANTED", "build_demo", "demo_section", "csv_bytes", "xlsx_bytes"]
+__all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "dip_section"]
 
 TRUE_RADIUS_M = 6371008.8  # IUGG mean radius R1 (Moritz, GRS80)
 SEED = 20261201
@@ -35,14 +31,6 @@ STATIONS = [
     ("Wren Station", 14.2), ("Osier Station", 19.6), ("Lantern Steps", 23.1),
     ("Gorse Knoll", 27.8), ("Upper Harrowby", 33.4), ("Saltmark Post", 11.7),
 ]
-FIRST = ["Amara", "Bexley", "Corin", "Dalia", "Emrys", "Fenna", "Galen", "Hester", "Idris", "Juno",
-         "Kestrel", "Linnea", "Marek", "Noor", "Orla", "Piet", "Quilla", "Rafferty", "Sabine", "Tobiah",
-         "Ulla", "Vesna", "Wynn", "Xanthe", "Yorick"]
-LAST = ["Ashgrove", "Brindlemoor", "Caskwell", "Dunmarrow", "Eldervane", "Fallowby", "Greythorn",
-        "Hollinsworth", "Ivesdale", "Jessamy", "Kettleburn", "Larkspur", "Mossfield", "Nettlecombe",
-        "Oakhurst", "Pennyroyal", "Quarrendon", "Rushmere", "Sallowfield", "Thistlewood", "Umberleigh",
-        "Varrow", "Whinfell", "Yarrowby", "Zennor"]
-
 # Planted mistakes by group number, and what labcheck must find.
 PLANTED = {
     3: ("refraction_ignored", "dip.radius"),
@@ -55,46 +43,20 @@ PLANTED = {
     22: ("bad_row", "dip_angle"),
 }
 MISSING_STUDENT = ("b2150-025", "Yorick Zennor")  # on the roster, no submission
-
-
-@dataclass
-class DemoGroup:
-    number: int
-    student_id: str
-    name: str
-    fmt: str  # "csv" or "xlsx"
-    rows: list[tuple[str, str, str, str, str]] = field(default_factory=list)
+UNREADABLE = {15}  # files damaged in upload
 
 
 def _r(x: float, nd: int) -> str:
     return f"{x:.{nd}f}"
 
 
-def _sig(x: float, digits: int = 4) -> float:
-    """Round to ``digits`` significant figures, as a student copying a calculator would."""
-    if x == 0:
-        return 0.0
-    return round(x, digits - 1 - math.floor(math.log10(abs(x))))
-
-
-def _g(x: float) -> str:
-    return f"{x:.10g}"
-
-
-def _dms(angle_deg: float) -> str:
-    total = round(abs(angle_deg) * 3600)
-    d, rem = divmod(total, 3600)
-    m, s = divmod(rem, 60)
-    return f"{'-' if angle_deg < 0 else ''}{d} {m:02d} {s:02d}"
-
-
-def demo_section() -> list[DemoGroup]:
+def dip_section() -> list[DemoGroup]:
     """Generate the section's groups (rows only; nothing is written)."""
     rng = np.random.default_rng(SEED)
     groups = []
     for g in range(1, 25):
         sid = f"b2150-{g:03d}"
-        name = f"{FIRST[g - 1]} {LAST[g - 1]}"
+        name = person(g - 1)
         station, height = STATIONS[(g - 1) % len(STATIONS)]
         fmt = "xlsx" if g % 4 == 0 or g == 15 else "csv"
         group = DemoGroup(g, sid, name, fmt)
@@ -130,7 +92,7 @@ def demo_section() -> list[DemoGroup]:
             texts = []
             for i, d in enumerate(readings):
                 if theodolite:
-                    rows.append(("observation", "horizon_zenith_angle", _dms(90 + math.degrees(d)), "dms", ""))
+                    rows.append(("observation", "horizon_zenith_angle", dms(90 + math.degrees(d)), "dms", ""))
                     texts.append(round(round((math.degrees(d)) * 3600) / 60, 6))
                 else:
                     val = round(math.degrees(d) * 60, 1)
@@ -151,10 +113,10 @@ def demo_section() -> list[DemoGroup]:
                 r_app = float(hz.radius_from_dip(h_for_student, math.degrees(d_rad)))
             else:
                 r_app = float(hz.radius_from_dip(h_for_student, d_rad))
-            r_app_km = _sig(r_app / 1000)
-            rep.append(("result", "dip.radius_apparent", _g(r_app_km), "km", ""))
-            radius_km = r_app_km if g == 3 else _sig((1 - SPEC_K) * r_app_km)
-            rep.append(("result", "dip.radius", _g(radius_km), "km", ""))
+            r_app_km = sig(r_app / 1000)
+            rep.append(("result", "dip.radius_apparent", num(r_app_km), "km", ""))
+            radius_km = r_app_km if g == 3 else sig((1 - SPEC_K) * r_app_km)
+            rep.append(("result", "dip.radius", num(radius_km), "km", ""))
             err = round(100 * (radius_km * 1000 - TRUE_RADIUS_M) / TRUE_RADIUS_M, 2)
             rep.append(("result", "dip.radius_error_pct", _r(err, 2), "%", ""))
 
@@ -170,61 +132,14 @@ def demo_section() -> list[DemoGroup]:
                 r_app = (d_meas * 1000) ** 2 / (math.sqrt(h_used_by_student) + math.sqrt(x_meas)) ** 2
             else:
                 r_app = float(hz.radius_from_hidden_height(d_meas * 1000, h_used_by_student, x_meas))
-            r_app_km = _sig(r_app / 1000)
-            rep.append(("result", "hidden_height.radius_apparent", _g(r_app_km), "km", ""))
-            radius_km = _sig((1 - SPEC_K) * r_app_km)
+            r_app_km = sig(r_app / 1000)
+            rep.append(("result", "hidden_height.radius_apparent", num(r_app_km), "km", ""))
+            radius_km = sig((1 - SPEC_K) * r_app_km)
             if g != 12:  # planted: result left out
-                rep.append(("result", "hidden_height.radius", _g(radius_km), "km", ""))
+                rep.append(("result", "hidden_height.radius", num(radius_km), "km", ""))
             err = round(100 * (radius_km * 1000 - TRUE_RADIUS_M) / TRUE_RADIUS_M, 2)
             rep.append(("result", "hidden_height.radius_error_pct", _r(err, 2), "%", ""))
 
         rows += rep
         groups.append(group)
     return groups
-
-
-def csv_bytes(rows) -> bytes:
-    """A submission file's bytes (CSV, UTF-8) from (part, item, value, unit, note) rows."""
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["part", "item", "value", "unit", "note"])
-    w.writerows(rows)
-    return buf.getvalue().encode("utf-8")
-
-
-def xlsx_bytes(rows) -> bytes:
-    """A submission file's bytes (XLSX, first sheet) from (part, item, value, unit, note) rows."""
-    import openpyxl
-
-    wb = openpyxl.Workbook()
-    ws = wb.active
-    ws.append(["part", "item", "value", "unit", "note"])
-    for r in rows:
-        ws.append(list(r))
-    buf = io.BytesIO()
-    wb.save(buf)
-    return buf.getvalue()
-
-
-def build_demo(folder: Path) -> tuple[Path, Path]:
-    """Write the demo's LMS-style zip export and roster into ``folder``; return their paths."""
-    folder.mkdir(parents=True, exist_ok=True)
-    groups = demo_section()
-    zip_path = folder / "section_B_submissions.zip"
-    with zipfile.ZipFile(zip_path, "w", zipfile.ZIP_DEFLATED) as z:
-        for grp in groups:
-            member = f"GEOD2150-B_horizon_dip/{grp.name.replace(' ', '_')}_{grp.student_id}/dip_lab_B{grp.number:02d}.{grp.fmt}"
-            if grp.number == 15:  # planted: a workbook damaged in upload
-                data = xlsx_bytes(grp.rows)[: 700]
-            else:
-                data = xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else csv_bytes(grp.rows)
-            z.writestr(member, data)
-        z.writestr("__MACOSX/GEOD2150-B_horizon_dip/._dip_lab_B01.csv", b"\x00\x05\x16\x07")
-    roster_path = folder / "roster.csv"
-    with open(roster_path, "w", encoding="utf-8", newline="") as fh:
-        w = csv.writer(fh)
-        w.writerow(["student_id", "name"])
-        for grp in groups:
-            w.writerow([grp.student_id, grp.name])
-        w.writerow(MISSING_STUDENT)
-    return zip_path, roster_path

@@ -1,0 +1,74 @@
+"""The bundled demo: invented sections of each lab, with planted mistakes.
+
+Every section is generated from a known truth with realistic noise (seeded:
+the same demo every time), packed as an LMS-style zip export with a roster,
+and graded by ``labcheck demo``.  ``PLANTED`` maps each group number to the
+mistake labcheck must find and the step where it shows.
+"""
+
+from __future__ import annotations
+
+import csv
+import zipfile
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+from . import baselines, dip
+from .common import DemoGroup, csv_bytes, xlsx_bytes
+
+__all__ = ["Section", "SECTIONS", "build_demo", "csv_bytes", "xlsx_bytes", "DemoGroup"]
+
+
+@dataclass(frozen=True)
+class Section:
+    lab: str  # the shipped spec's id
+    code: str  # section letter
+    folder: str
+    generate: Callable[[], list[DemoGroup]]
+    planted: dict[int, tuple[str, str | None]]
+    missing_student: tuple[str, str] | None = None
+    unreadable: set[int] = field(default_factory=set)
+    bad_rows: dict[int, str] = field(default_factory=dict)  # group -> observation with a misread row
+
+    @property
+    def zip_name(self) -> str:
+        return f"section_{self.code}_submissions.zip"
+
+
+SECTIONS = (
+    Section("horizon_dip", "B", "horizon_dip", dip.dip_section,
+            {k: v for k, v in dip.PLANTED.items() if v[0] not in ("unreadable", "bad_row")},
+            dip.MISSING_STUDENT, dip.UNREADABLE, {22: "dip_angle"}),
+    Section("taped_baseline", "C", "taped_baseline", baselines.taped_section, baselines.TAPED_PLANTED,
+            baselines.TAPED_MISSING),
+    Section("baseline_radius", "D", "baseline_radius", baselines.radius_section, baselines.RADIUS_PLANTED,
+            baselines.RADIUS_MISSING),
+    Section("odometer_baseline", "E", "odometer_baseline", baselines.odometer_section, baselines.ODOMETER_PLANTED,
+            baselines.ODOMETER_MISSING),
+)
+
+
+def build_demo(folder: Path, section: Section) -> tuple[Path, Path]:
+    """Write one section's LMS-style zip export and roster into ``folder``; return their paths."""
+    folder.mkdir(parents=True, exist_ok=True)
+    groups = section.generate()
+    zip_path = folder / section.zip_name
+    top = f"GEOD2150-{section.code}_{section.lab}"
+    with zipfile.ZipFile(zip_path, "w", zipfile.ZIP_DEFLATED) as z:
+        for grp in groups:
+            member = f"{top}/{grp.name.replace(' ', '_')}_{grp.student_id}/{section.lab}_{section.code}{grp.number:02d}.{grp.fmt}"
+            data = xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else csv_bytes(grp.rows)
+            if grp.number in section.unreadable:  # planted: a workbook damaged in upload
+                data = data[:700]
+            z.writestr(member, data)
+        z.writestr(f"__MACOSX/{top}/._{section.lab}_{section.code}01.csv", b"\x00\x05\x16\x07")
+    roster_path = folder / "roster.csv"
+    with open(roster_path, "w", encoding="utf-8", newline="") as fh:
+        w = csv.writer(fh)
+        w.writerow(["student_id", "name"])
+        for grp in groups:
+            w.writerow([grp.student_id, grp.name])
+        if section.missing_student:
+            w.writerow(section.missing_student)
+    return zip_path, roster_path
