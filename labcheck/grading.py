@@ -220,9 +220,10 @@ def _constants(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, di
     for c in method.constants:
         readings = sub.observations.get(c.name)
         if c.overridable and readings:
+            written = f"{readings[-1].text} {readings[-1].unit}".strip()
             consts[c.name] = readings[-1].si
-            texts[c.name] = f"{readings[-1].text} {readings[-1].unit}".strip() + " (yours)"
-            notes.append(f"{c.label}: your own value {texts[c.name]} is used instead of the lab's "
+            texts[c.name] = f"{written} (yours)"
+            notes.append(f"{c.label}: your own value {written} is used instead of the lab's "
                          f"{spec.constants_text.get(c.name, 'value')}.")
     return consts, texts, notes
 
@@ -281,7 +282,12 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
         for _, _, target in bases:
             if target is None or target == 0:
                 continue
-            if tol.matches(reported, target * slip.factor):
+            slipped = target * slip.factor
+            # A slip is evidence only when it is told apart from the right value and from zero
+            # (a small correction scaled by 1/1000 is indistinguishable from a blank 0).
+            if tol.matches(slipped, target) or tol.matches(slipped, 0.0):
+                continue
+            if tol.matches(reported, slipped):
                 return {"id": slip.id, "label": slip.label, "text": spec.mistakes.get(slip.id, slip.explanation)}
     if written is not None:
         text, unit = written
@@ -340,9 +346,12 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     """(verdict, explanation, diagnosis) for one step; see the module docstring for the rules."""
     step, tol = rule.step, rule.tolerance
     if rep is None:
+        also = ""
+        if exp is None and step.id in run.why_missing:
+            also = f" It cannot be recomputed from your observations either: {run.why_missing[step.id]}."
         if rule.key in sub.bad_items:
-            return "missing", "Your value could not be read (see the notes on your rows).", None
-        return "missing", "Not reported.", None
+            return "missing", "Your value could not be read (see the notes on your rows)." + also, None
+        return "missing", "Not reported." + also, None
     if exp is not None and tol.matches(rep.si, exp):
         return "correct", f"Matches the value recomputed from your observations (tolerance {tol.text}).", None
     if own is not None and tol.matches(rep.si, own):

@@ -214,3 +214,14 @@ def test_transposed_mean_is_named(spec):
     rows = [r if r[1] != "dip_mean" else ("result", "dip_mean", "6.60", "arcmin") for r in rows]  # right: 6.06
     s = step(grade_rows(spec, rows), "dip_mean")
     assert s["verdict"] == "wrong" and s["diagnosis"]["id"] == "digits_transposed"
+
+
+def test_a_slip_that_lands_on_zero_is_not_a_diagnosis(spec):
+    # Regression: a blank-like 0 for a small value was named "km written where metres are asked"
+    # because value/1000 fell inside the tolerance of 0.  A slip must be told apart from zero.
+    from labcheck.grading import GENERIC_SLIPS, _diagnose
+
+    rule = spec.steps["dip_mean"]
+    tiny = 0.01 * ARCMIN  # smaller than the 0.02' tolerance after any scale slip below 1
+    assert _diagnose(rule, spec, 0.0, {}, None, tiny, None) is None
+    assert any(s.factor < 1 for s in GENERIC_SLIPS["angle"])
