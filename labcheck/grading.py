@@ -308,7 +308,12 @@ class _MethodRun:
     consts: dict  # constant name -> SI value (the spec's, or the group's own)
     consts_text: dict  # constant name -> as shown
     expected: dict = field(default_factory=dict)  # step id -> recomputed SI value or None
-    why_missing: dict[str, str] = field(default_factory=dict)  # step id -> why it cannot be recomputed
+    missing_reasons: dict[str, tuple[str, ...]] = field(default_factory=dict)  # step id -> why not recomputable
+
+    @property
+    def why_missing(self) -> dict[str, str]:
+        """Step id -> the reasons it cannot be recomputed, as one sentence (each reason once)."""
+        return {k: "; ".join(v) for k, v in self.missing_reasons.items()}
     reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
     verdicts: dict[str, str] = field(default_factory=dict)
 
@@ -321,7 +326,7 @@ class _MethodRun:
                 if self.expected.get(name) is not None:
                     inputs[name] = self.expected[name]
                 else:
-                    reasons.append(self.why_missing.get(name, f"step {name} could not be recomputed"))
+                    reasons.extend(self.missing_reasons.get(name, (f"step {name} could not be recomputed",)))
             elif name in consts:
                 inputs[name] = consts[name]
             elif name in self.obs:
@@ -553,7 +558,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
                 reasons.append(reason)
         run.expected[step.id] = exp
         if reasons:
-            run.why_missing[step.id] = "; ".join(dict.fromkeys(reasons))
+            run.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
         own_inputs = run.own_inputs(step, ref_inputs)
         own = _evaluate(step, own_inputs)[0] if own_inputs is not None else None
 

@@ -34,14 +34,24 @@ def template_rows(spec: LabSpec) -> list[tuple[str, str, str, str, str, str]]:
             if len(shared) > 1:
                 text += f" (used by {' and '.join(shared)}; write {shared[1]}.{o.name} for a separate value)"
             n = max(rule.min_readings, 3) if o.repeated else 1
-            if o.repeated:
+            if o.repeated and o.spread:
                 text += "; one reading per row, add rows for more"
+            elif o.repeated:
+                text += "; add rows for more"
             for _ in range(n):
                 rows.append(("observation", o.name, "", rule.unit, "", text))
             for alt in o.alternatives:
                 rows.append(("observation", alt.name, "", alt.unit, "", alt.description))
+    for m in spec.methods:
+        for c in m.constants:
+            if c.overridable and c.name not in seen:
+                seen.add(c.name)
+                lab_value = spec.constants_text.get(c.name, "none set")
+                rows.append(("observation", c.name, "", c.unit, "",
+                             f"optional: your own {c.label}, only if it differs from the lab's ({lab_value})"))
     for key, rule in spec.steps.items():
-        rows.append(("result", key, "", rule.unit, "", f"{rule.step.label}: {rule.step.formula}"))
+        unit = "" if rule.unit == "1" else rule.unit
+        rows.append(("result", key, "", unit, "", f"{rule.step.label}: {rule.step.formula}"))
     return rows
 
 

@@ -225,3 +225,10 @@ def test_a_slip_that_lands_on_zero_is_not_a_diagnosis(spec):
     tiny = 0.01 * ARCMIN  # smaller than the 0.02' tolerance after any scale slip below 1
     assert _diagnose(rule, spec, 0.0, {}, None, tiny, None) is None
     assert any(s.factor < 1 for s in GENERIC_SLIPS["angle"])
+
+
+def test_missing_reasons_are_given_once(spec):
+    # Regression: a reason repeated once per path through the step graph.
+    rec = grade_rows(spec, [("identity", "student_id", "s9"), ("observation", "dip_angle", "6.0", "arcmin")])
+    text = rec["accuracy"]["dip"]["explanation"]
+    assert text.count("eye height (eye_height) was not given") == 1
