@@ -174,7 +174,10 @@ def cmd_spec(args) -> int:
     print(f"{spec.path}: valid lab spec {spec.id!r}: {spec.title}")
     for rule in spec.steps.values():
         print(f"  step {rule.key:<32} {rule.points:>4g} points, tolerance {rule.tolerance.text}")
-    print(f"  accuracy: {spec.accuracy.points:g} points per method, {spec.accuracy.text}")
+    if spec.accuracy is None:
+        print("  accuracy: not judged in this lab (no [accuracy] table)")
+    else:
+        print(f"  accuracy: {spec.accuracy.points:g} points per method, {spec.accuracy.text}")
     return 0
 
 

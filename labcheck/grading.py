@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import math
 import re
+from datetime import datetime, timezone
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -33,7 +34,7 @@ import numpy as np
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
-from .units import UNITS, format_value, from_si
+from .units import UNITS, format_value, from_si, parse_quantity, to_si
 
 __all__ = ["grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
@@ -170,6 +171,10 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
                         break
                 if found:
                     break
+        if found is None and o.default is not None:
+            values[o.name] = _default_si(o)
+            notes.append(f"{o.label}: not given; the default {o.default} is used.")
+            continue
         if found is None:
             tried = [o.name] + [a.name for a in o.alternatives]
             bad = [k for k in sub.bad_items if k.split(".")[-1] in tried]
@@ -205,10 +210,20 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
     return values, missing, used, notes
 
 
+def _default_si(o) -> float:
+    """An observation's documented default (``"10 C"``, ``"south"``) in SI."""
+    if o.kind == "choice":
+        return float(o.choices.index(o.default))
+    number, unit = parse_quantity(o.default)
+    return float(to_si(number, unit, o.kind))
+
+
 def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 6) -> str:
     """An observation's value as shown: coordinates to 0.000001° or better, others to ``digits`` figures."""
     if o.kind == "choice":
         return o.choices[int(round(value_si))]
+    if o.kind == "datetime":
+        return datetime.fromtimestamp(value_si, timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
     return format_value(value_si, spec.observations[o.name].unit, o.kind, 9 if o.hemisphere else digits)
 
 
@@ -465,12 +480,18 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
         text = f"Cannot be judged: {why or 'the result could not be recomputed'}."
     else:
         frac = acc.score_fraction(value, ref)
-        err_pct = 100.0 * (value - ref) / ref
-        text = (
-            f"Your observations give {format_value(value, rule.unit, kind, 6)}, "
-            f"{_pct_text(abs(err_pct))} {'above' if err_pct > 0 else 'below'} the {reference.label} "
-            f"{format_value(ref, rule.unit, kind, 8)}."
-        )
+        if kind == "angle":  # a percentage of a latitude means nothing: give the difference
+            err_pct = None
+            off = format_value(abs(value - ref), rule.unit, kind, 2)
+            text = (f"Your observations give {format_value(value, rule.unit, kind, 7)}, {off} "
+                    f"{'above' if value > ref else 'below'} the {reference.label} {format_value(ref, rule.unit, kind, 7)}.")
+        else:
+            err_pct = 100.0 * (value - ref) / ref
+            text = (
+                f"Your observations give {format_value(value, rule.unit, kind, 6)}, "
+                f"{_pct_text(abs(err_pct))} {'above' if err_pct > 0 else 'below'} the {reference.label} "
+                f"{format_value(ref, rule.unit, kind, 8)}."
+            )
     rep = sub.results.get(rule.key)
     return {
         "method": method.id,
@@ -483,6 +504,7 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
         "recomputed": _display(value, rule.unit, kind),
         "reported": _display(rep.si, rule.unit, kind) if rep is not None else None,
         "error_pct": round(err_pct, 4) if err_pct is not None else None,
+        "difference": _display(value - ref, rule.unit, kind) if value is not None and ref is not None else None,
         "rule": acc.text,
         "points": round(acc.points * frac, 3),
         "max_points": acc.points,
@@ -593,6 +615,10 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
         })
     accuracy, reference_notes = _accuracy(run, sub)
     quality = _quality(method, spec, used, obs_notes + const_notes) + reference_notes
+    if method.notes is not None:
+        written = {name: readings[-1].text for name, (_, readings) in used.items()}
+        for note_id, ok, text in method.notes(obs, consts, written):
+            quality.append({"method": method.id, "observation": None, "ok": ok, "text": text, "id": note_id})
     return records, accuracy, quality, _observations_shown(method, spec, obs, used)
 
 

@@ -18,7 +18,7 @@ import pandas as pd
 from . import __version__
 from .resources import templates_dir
 from .spec import LabSpec
-from .units import to_si
+from .units import from_si, to_si
 
 __all__ = ["Renderer", "fmt_number", "fmt_fixed", "VERDICT_WORDS"]
 
@@ -249,17 +249,24 @@ class Renderer:
             return None
         errors = {}
         references = []
+        angular = all(self.spec.steps[self.spec.step_key(m.id, m.result_step)].step.kind == "angle" for m in methods)
         for m in methods:
             pts = []
             for s in graded:
                 value, ref, unit = s["results"].get(m.id, (None, None, None))
-                if value is not None and ref:
-                    pts.append((100.0 * (value - ref) / ref, s, value, unit))
+                if value is not None and ref is not None and (angular or ref):
+                    pts.append(((value - ref) if angular else 100.0 * (value - ref) / ref, s, value, unit))
                     references.append(ref)
             errors[m.id] = pts
         if not references:
             return None
-        if acc.kind == "relative":
+        axis_unit = "%"
+        if angular:  # differences in the result's own unit
+            axis_unit = next(u for pts in errors.values() for _, _, _, u in pts)
+            full_pct = float(from_si(acc.full_within, axis_unit, "angle"))
+            zero_pct = float(from_si(acc.zero_beyond, axis_unit, "angle"))
+            band_note = ""
+        elif acc.kind == "relative":
             full_pct, zero_pct = 100 * acc.full_within, 100 * acc.zero_beyond
             band_note = ""
         else:  # absolute bands: drawn at the median reference
@@ -286,14 +293,14 @@ class Renderer:
                 jitter = ((j * 7) % 11 - 5) * 3.0
                 dots.append({
                     "x": x(e), "y": round(y + jitter, 1), "clipped": abs(e) > span,
-                    "title": f"{s['group'] or s['student_id']}: {fmt_number(value)} {unit} ({e:+.3g} %)",
+                    "title": f"{s['group'] or s['student_id']}: {fmt_number(value)} {unit} ({e:+.3g} {axis_unit})",
                 })
             rows.append({"label": m.title, "y": y, "label_y": y + 4, "dots": dots, "n": len(dots)})
         ticks = []
         step = _nice_step(2 * span / 6)
         t = math.ceil(-span / step) * step
         while t <= span + 1e-12:
-            ticks.append({"x": x(t), "label": f"{t:+g} %" if abs(t) > 1e-12 else "0"})
+            ticks.append({"x": x(t), "label": f"{t:+g} {axis_unit}" if abs(t) > 1e-12 else "0"})
             t += step
         bottom = top + row_h * len(methods)
         return {

@@ -166,7 +166,11 @@ def _parse_tolerance(text, kind: str) -> Tolerance:
     return Tolerance(text, absolute_si=to_si(number, unit, kind))
 
 
-def _parse_constant(text, kind: str) -> float:
+def _parse_constant(text, kind: str, choices: tuple[str, ...] = ()) -> float:
+    if kind == "choice":
+        if not isinstance(text, str) or text.strip().lower() not in choices:
+            raise UnitError(f"expected one of {', '.join(choices)}, got {text!r}")
+        return float(choices.index(text.strip().lower()))
     if isinstance(text, (int, float)) and not isinstance(text, bool) and kind == "ratio":
         return float(text)
     if not isinstance(text, str):
@@ -280,7 +284,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                 c.add(f"constants.{name}", f"missing; expected the {const.label} ({const.description})")
             continue
         try:
-            constants_si[name] = _parse_constant(text, const.kind)
+            constants_si[name] = _parse_constant(text, const.kind, const.choices)
             constants_text[name] = str(text) + ("" if name in constants_raw else " (default)")
         except UnitError as exc:
             c.add(f"constants.{name}", str(exc))
@@ -337,7 +341,8 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     expected_keys = [public_step_key(methods, m.id, s.id) for m in methods for s in m.steps]
     for key in steps_raw:
         if key not in expected_keys:
-            c.add(f"steps.{key}", f"unknown step; the steps of this lab are: {', '.join(expected_keys)}")
+            shown = f'steps."{key}"' if "." in key else f"steps.{key}"
+            c.add(shown, f"unknown step; the steps of this lab are: {', '.join(expected_keys)}")
     for m in methods:
         for s in m.steps:
             key = public_step_key(methods, m.id, s.id)
@@ -383,7 +388,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     accuracy = None
     if "accuracy" in raw:
         acc_raw = c.get(raw, "accuracy", "", dict, what="a table with points, full_within and zero_beyond") or {}
-        accuracy = _parse_accuracy(acc_raw, c)
+        kinds = {m.step(m.result_step).kind for m in methods if m.reference is not None}
+        if len(kinds) > 1:
+            c.add("accuracy", f"the methods' results are of different kinds ({', '.join(sorted(kinds))}); one accuracy rule cannot judge them")
+        accuracy = _parse_accuracy(acc_raw, c, kinds.pop() if len(kinds) == 1 else "length")
 
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
     from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
@@ -418,7 +426,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     )
 
 
-def _parse_band(text, path: str, c: _Checker) -> tuple[float, str] | None:
+def _parse_band(text, path: str, c: _Checker, kind: str = "length") -> tuple[float, str] | None:
     if not isinstance(text, str):
         c.add(path, f'expected a band such as "5 %" or "300 km", got {text!r}')
         return None
@@ -430,28 +438,29 @@ def _parse_band(text, path: str, c: _Checker) -> tuple[float, str] | None:
     if number < 0:
         c.add(path, f"expected a band of 0 or more, got {text!r}")
         return None
-    if unit == "%":
+    if unit == "%" and kind != "angle":
         return number / 100.0, "relative"
-    if unit in UNITS["length"]:
-        return to_si(number, unit, "length"), "absolute"
-    c.add(path, f'expected a band in % or a length unit (e.g. "5 %" or "300 km"), got {text!r}')
+    if unit in UNITS.get(kind, {}):
+        return to_si(number, unit, kind), "absolute"
+    example = '"0.5 deg" or "30 arcmin"' if kind == "angle" else '"5 %" or "300 km"'
+    c.add(path, f"expected a band in {'an angle unit' if kind == 'angle' else '% or a ' + kind + ' unit'} (e.g. {example}), got {text!r}")
     return None
 
 
-def _parse_accuracy(acc: dict, c: _Checker) -> AccuracyRule:
+def _parse_accuracy(acc: dict, c: _Checker, kind: str = "length") -> AccuracyRule:
     for k in acc:
         if k not in ("points", "full_within", "zero_beyond"):
             c.add(f"accuracy.{k}", "unknown key; expected points, full_within or zero_beyond")
     points = c.get(acc, "points", "accuracy", (int, float), what="a number of points (0 or more)", default=0)
-    full = _parse_band(acc.get("full_within"), "accuracy.full_within", c) if "full_within" in acc else None
-    zero = _parse_band(acc.get("zero_beyond"), "accuracy.zero_beyond", c) if "zero_beyond" in acc else None
+    full = _parse_band(acc.get("full_within"), "accuracy.full_within", c, kind) if "full_within" in acc else None
+    zero = _parse_band(acc.get("zero_beyond"), "accuracy.zero_beyond", c, kind) if "zero_beyond" in acc else None
     if "full_within" not in acc:
         c.add("accuracy.full_within", 'missing; expected a band such as "5 %" or "300 km"')
     if "zero_beyond" not in acc:
         c.add("accuracy.zero_beyond", 'missing; expected a band such as "20 %" or "1300 km"')
     if full and zero:
         if full[1] != zero[1]:
-            c.add("accuracy", "full_within and zero_beyond must both be in % or both lengths")
+            c.add("accuracy", "full_within and zero_beyond must both be in % or both lengths (or both angles)")
         elif zero[0] <= full[0]:
             c.add("accuracy.zero_beyond", "expected a band wider than full_within")
     if not (full and zero):

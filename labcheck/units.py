@@ -33,6 +33,7 @@ __all__ = [
     "from_si",
     "parse_number",
     "parse_dms_deg",
+    "parse_datetime",
     "looks_dms",
     "parse_quantity",
     "parse_value",
@@ -74,7 +75,10 @@ _ANGLE = {
 _LBF = 4.4482216152605  # N, NIST SP 811 (from the avoirdupois pound and standard gravity)
 _FORCE = {"N": 1.0, "kN": 1000.0, "lbf": _LBF, "kgf": 9.80665}
 _AREA = {"m2": 1.0, "cm2": 1e-4, "mm2": 1e-6, "in2": 0.0254**2, "ft2": 0.3048**2}
-_PRESSURE = {"Pa": 1.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9, "psi": _LBF / 0.0254**2, "ksi": 1000 * _LBF / 0.0254**2}
+# inHg: 3386.389 Pa (NIST SP 811, conventional, at 0 °C); mbar = hPa = 100 Pa.
+_PRESSURE = {"Pa": 1.0, "hPa": 100.0, "mbar": 100.0, "kPa": 1e3, "MPa": 1e6, "GPa": 1e9,
+             "psi": _LBF / 0.0254**2, "ksi": 1000 * _LBF / 0.0254**2, "inHg": 3386.389}
+_DURATION = {"s": 1.0, "min": 60.0, "h": 3600.0}
 _FORCE_PER_LENGTH = {"N/m": 1.0, "kgf/m": 9.80665, "lbf/ft": _LBF / 0.3048}
 # A coefficient per degree: per kelvin equals per degree Celsius; per degree Fahrenheit is 1.8 per °C.
 _PER_TEMPERATURE = {"/C": 1.0, "/K": 1.0, "/F": 1.8}
@@ -82,7 +86,7 @@ _RATIO = {"1": 1.0, "%": 0.01, "ppm": 1e-6}
 _PERCENT = {"%": 1.0, "pp": 1.0}
 _TEMPERATURE = ("C", "F", "K")
 
-KINDS = ("length", "angle", "force", "area", "pressure", "force_per_length", "per_temperature",
+KINDS = ("length", "angle", "force", "area", "pressure", "force_per_length", "per_temperature", "duration",
          "temperature", "ratio", "percent", "choice", "datetime", "text")
 
 UNITS: dict[str, dict[str, float]] = {
@@ -93,6 +97,7 @@ UNITS: dict[str, dict[str, float]] = {
     "pressure": _PRESSURE,
     "force_per_length": _FORCE_PER_LENGTH,
     "per_temperature": _PER_TEMPERATURE,
+    "duration": _DURATION,
     "ratio": _RATIO,
     "percent": _PERCENT,
     "temperature": {u: math.nan for u in _TEMPERATURE},
@@ -108,14 +113,16 @@ _ALIASES = {
     "mile": "mi", "miles": "mi",
     "nm": "nmi", "nautical mile": "nmi", "nautical miles": "nmi",
     "degree": "deg", "degrees": "deg", "°": "deg",
-    "arcminute": "arcmin", "arcminutes": "arcmin", "′": "arcmin", "min": "arcmin",
-    "arcsecond": "arcsec", "arcseconds": "arcsec", "″": "arcsec", "sec": "arcsec",
+    "arcminute": "arcmin", "arcminutes": "arcmin", "′": "arcmin",
+    "arcsecond": "arcsec", "arcseconds": "arcsec", "″": "arcsec",
     "radian": "rad", "radians": "rad",
     "grad": "gon", "grads": "gon",
     "°c": "C", "degc": "C", "c": "C", "°f": "F", "degf": "F", "f": "F", "k": "K",
     "n": "N", "kn": "kN", "lb": "lbf", "lbs": "lbf", "percent": "%",
     "m²": "m2", "mm²": "mm2", "cm²": "cm2", "in²": "in2", "ft²": "ft2", "sq in": "in2", "sq ft": "ft2",
     "pa": "Pa", "kpa": "kPa", "mpa": "MPa", "gpa": "GPa", "lbf/in2": "psi", "lb/in2": "psi",
+    "hpa": "hPa", "mb": "mbar", "millibar": "mbar", "inhg": "inHg", "in hg": "inHg",
+    "minutes": "min", "minute": "min", "seconds": "s", "second": "s", "hours": "h", "hour": "h",
     "n/m": "N/m", "lb/ft": "lbf/ft", "lbs/ft": "lbf/ft",
     "/°c": "/C", "1/c": "/C", "1/°c": "/C", "per c": "/C", "/°f": "/F", "1/f": "/F", "1/°f": "/F", "per f": "/F",
     "/k": "/K", "1/k": "/K",
@@ -295,9 +302,30 @@ def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False) ->
                 )
             return parse_dms_deg(s, hemisphere=hemisphere) * _ANGLE["deg"]
         return to_si(parse_number(s), u, kind)
+    if kind == "datetime":
+        return parse_datetime(s)
     if kind in UNITS:
         return to_si(parse_number(s), unit, kind)
     raise UnitError(f"cannot parse a value of kind {kind!r}")
+
+
+def parse_datetime(text: str) -> float:
+    """An ISO 8601 date-time with a UTC offset (``2026-09-21T12:47:30+01:00``, ``... Z``) as POSIX seconds.
+
+    A time without an offset is refused: the sun needs universal time.
+    """
+    from datetime import datetime
+
+    s = str(text).strip().replace(" ", "T", 1) if "T" not in str(text) else str(text).strip()
+    if s.endswith(("Z", "z")):
+        s = s[:-1] + "+00:00"
+    try:
+        when = datetime.fromisoformat(s)
+    except ValueError:
+        raise UnitError(f"expected a date and time such as 2026-09-21T12:47:30+01:00, got {text!r}") from None
+    if when.tzinfo is None:
+        raise UnitError(f"the time {text!r} needs its UTC offset, e.g. +01:00, or Z for UTC")
+    return when.timestamp()
 
 
 _QTY_RE = re.compile(r"^\s*(?P<num>[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?)\s*(?P<unit>.*?)\s*$")

@@ -57,6 +57,8 @@ def test_demo_end_to_end(demo, section):
         assert rec["status"] == "unreadable" and rec["error"]
     for group, item in section.bad_rows.items():
         assert any(f["item"] == item for f in by_id[f"{prefix}{group:03d}"]["flags"])
+    for group, note_id in section.notes.items():
+        assert any(q.get("id") == note_id for q in by_id[f"{prefix}{group:03d}"]["quality"])
     # Groups without a planted mistake: every step correct.
     planted = set(section.planted) | section.unreadable
     for rec in subs:
@@ -220,3 +222,16 @@ def test_a_crash_on_one_file_does_not_stop_the_batch(tmp_path, monkeypatch, caps
     assert "simulated bug" in subs[1]["error"] and "this is a bug" in subs[1]["error"]
     assert "Traceback" in capsys.readouterr().err  # the bug keeps its traceback for the report
     assert (tmp_path / "out" / "feedback" / "s3.html").exists()
+
+
+def test_spec_check_of_a_lab_without_accuracy(capsys):
+    # Regression: spec check crashed on a lab with no [accuracy] table.
+    assert main(["spec", "check", "trig_heighting"]) == 0
+    assert "accuracy: not judged in this lab" in capsys.readouterr().out
+
+
+def test_every_shipped_spec_checks(capsys):
+    from labcheck.resources import specs_dir
+
+    for f in sorted(specs_dir().glob("*.toml")):
+        assert main(["spec", "check", str(f)]) == 0, f.name

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
-from . import baselines, dip
+from . import baselines, dip, zenith
 from .common import DemoGroup, csv_bytes, xlsx_bytes
 
 __all__ = ["Section", "SECTIONS", "build_demo", "csv_bytes", "xlsx_bytes", "DemoGroup"]
@@ -30,6 +30,7 @@ class Section:
     missing_student: tuple[str, str] | None = None
     unreadable: set[int] = field(default_factory=set)
     bad_rows: dict[int, str] = field(default_factory=dict)  # group -> observation with a misread row
+    notes: dict[int, str] = field(default_factory=dict)  # group -> id of a quality note that must appear
 
     @property
     def zip_name(self) -> str:
@@ -46,6 +47,11 @@ SECTIONS = (
             baselines.RADIUS_MISSING),
     Section("odometer_baseline", "E", "odometer_baseline", baselines.odometer_section, baselines.ODOMETER_PLANTED,
             baselines.ODOMETER_MISSING),
+    Section("noon_shadow", "F", "noon_shadow", zenith.gnomon_section, zenith.GNOMON_PLANTED,
+            notes=zenith.GNOMON_NOTES),
+    Section("noon_sight", "G", "noon_sight", zenith.sextant_section, zenith.SEXTANT_PLANTED),
+    Section("meridian_arc", "H", "meridian_arc", zenith.arc_section, zenith.ARC_PLANTED),
+    Section("trig_heighting", "I", "trig_heighting", zenith.theodolite_section, zenith.THEODOLITE_PLANTED),
 )
 
 

@@ -59,6 +59,7 @@ class Observation:
     limits: tuple[float, float] | None = None  # physical range in SI; outside is a bad row
     choices: tuple[str, ...] = ()  # kind 'choice': allowed words, read as their index
     spread: bool = True  # repeated readings of one quantity (their spread is a quality note), not segments
+    default: str | None = None  # used when not given, e.g. "10 C", "1010 hPa", "south"; the sheet says so
 
 
 @dataclass(frozen=True)
@@ -78,6 +79,7 @@ class Constant:
     default: str | None = None
     overridable: bool = False
     unit: str = ""
+    choices: tuple[str, ...] = ()  # kind 'choice': the allowed words
 
 
 @dataclass(frozen=True)
@@ -170,6 +172,10 @@ class Method:
     result_step: str  # the step whose value is judged for accuracy
     summary: str = ""
     reference: Reference | None = None
+    # notes(obs, consts, written) -> list of (id, ok, text): method-specific remarks for the sheet's
+    # quality section (e.g. how far from local apparent noon the sun was observed); ``written`` holds
+    # each observation's last value as written.  Pure: no I/O.
+    notes: Callable[[dict, dict, dict], list[tuple[str, bool, str]]] | None = None
 
     def __post_init__(self) -> None:
         known = {o.name for o in self.observations} | {c.name for c in self.constants}
