@@ -36,7 +36,7 @@ from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
 from .units import UNITS, format_value, from_si, parse_quantity, to_si
 
-__all__ = ["grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
+__all__ = ["Chain", "evaluate_chain", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
 
 @dataclass(frozen=True)
@@ -313,6 +313,51 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
 
 
 @dataclass
+class Chain:
+    """A method's steps recomputed from given observations and constants (SI)."""
+
+    expected: dict  # step id -> value, or None when it cannot be recomputed
+    missing_reasons: dict  # step id -> reasons it cannot be recomputed
+    inputs: dict  # step id -> the inputs it was evaluated with
+
+
+def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | None = None) -> Chain:
+    """Recompute every step of ``method`` in order from ``obs`` and ``consts`` (pure).
+
+    A step whose inputs are missing, or whose function finds its inputs
+    inconsistent (``ValueError``), gets ``None`` and the reasons, and so do
+    the steps that depend on it.  Used by grading, uncertainty propagation
+    and the mistake catalogue's tests.
+    """
+    missing_obs = missing_obs or {}
+    chain = Chain({}, {}, {})
+    for step in method.steps:
+        inputs, reasons = {}, []
+        for name in step.inputs:
+            if name in method.step_ids:
+                if chain.expected.get(name) is not None:
+                    inputs[name] = chain.expected[name]
+                else:
+                    reasons.extend(chain.missing_reasons.get(name, (f"step {name} could not be recomputed",)))
+            elif name in consts:
+                inputs[name] = consts[name]
+            elif name in obs:
+                inputs[name] = obs[name]
+            else:
+                reasons.append(missing_obs.get(name, f"{name} was not given"))
+        value = None
+        if not reasons:
+            value, reason = _evaluate(step, inputs)
+            if reason:
+                reasons.append(reason)
+        chain.expected[step.id] = value
+        chain.inputs[step.id] = inputs
+        if reasons:
+            chain.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
+    return chain
+
+
+@dataclass
 class _MethodRun:
     """What grading one method of one submission accumulates, step by step."""
 
@@ -331,24 +376,6 @@ class _MethodRun:
         return {k: "; ".join(v) for k, v in self.missing_reasons.items()}
     reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
     verdicts: dict[str, str] = field(default_factory=dict)
-
-    def reference_inputs(self, step: Step) -> tuple[dict, list[str]]:
-        """The step's inputs from observations, constants and recomputed earlier steps; and what is missing."""
-        inputs, reasons = {}, []
-        consts = self.consts
-        for name in step.inputs:
-            if name in self.method.step_ids:
-                if self.expected.get(name) is not None:
-                    inputs[name] = self.expected[name]
-                else:
-                    reasons.extend(self.missing_reasons.get(name, (f"step {name} could not be recomputed",)))
-            elif name in consts:
-                inputs[name] = consts[name]
-            elif name in self.obs:
-                inputs[name] = self.obs[name]
-            else:
-                reasons.append(self.missing_obs.get(name, f"{name} was not given"))
-        return inputs, reasons
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
         """The step's inputs with the student's own reported earlier values, if they reported any."""
@@ -568,19 +595,14 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
 def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[dict]]:
     obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
     consts, consts_text, const_notes = _constants(method, sub, spec)
-    run = _MethodRun(method, spec, obs, missing_obs, consts, consts_text)
+    chain = evaluate_chain(method, obs, consts, missing_obs)
+    run = _MethodRun(method, spec, obs, missing_obs, consts, consts_text,
+                     expected=chain.expected, missing_reasons=chain.missing_reasons)
     records = []
     for rule in spec.steps_of(method):
         step = rule.step
-        ref_inputs, reasons = run.reference_inputs(step)
-        exp = None
-        if not reasons:
-            exp, reason = _evaluate(step, ref_inputs)
-            if reason:
-                reasons.append(reason)
-        run.expected[step.id] = exp
-        if reasons:
-            run.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
+        ref_inputs = chain.inputs[step.id]
+        exp = chain.expected[step.id]
         own_inputs = run.own_inputs(step, ref_inputs)
         own = _evaluate(step, own_inputs)[0] if own_inputs is not None else None
 
