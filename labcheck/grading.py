@@ -36,7 +36,7 @@ from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
 from .units import UNITS, format_value, from_si, parse_quantity, to_si
 
-__all__ = ["Chain", "evaluate_chain", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
+__all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
 
 @dataclass(frozen=True)
@@ -225,6 +225,13 @@ def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 6) -> str
     if o.kind == "datetime":
         return datetime.fromtimestamp(value_si, timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
     return format_value(value_si, spec.observations[o.name].unit, o.kind, 9 if o.hemisphere else digits)
+
+
+def method_inputs(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, dict, dict]:
+    """A submission's observations and constants for ``method`` (SI), and why any are missing."""
+    obs, missing, _, _ = _gather_observations(method, sub, spec)
+    consts, _, _ = _constants(method, sub, spec)
+    return obs, consts, missing
 
 
 def _constants(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, dict, list[str]]:

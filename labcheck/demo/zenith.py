@@ -136,7 +136,7 @@ def sextant_section() -> list[DemoGroup]:
     for g in range(1, 11):
         sid = f"g2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g + 9, 5), "xlsx" if g % 3 == 0 else "csv")
-        artificial = g in (1, 3, 4, 5, 7)
+        artificial = g in (1, 3, 4, 5)
         upper = g in (5, 8)
         day = datetime(2026, 9, 10 + g, tzinfo=timezone.utc)
         when_local = _observe_time(day, SITE[1], float(rng.uniform(-3, 3))).astimezone(ZONE)
