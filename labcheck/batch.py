@@ -251,7 +251,7 @@ def _summary(record: dict, spec: LabSpec) -> dict:
     """The slim part of a record the gradebook and section summary need."""
     results = {}  # method -> (recomputed result, its reference, unit) for the section's accuracy plot
     for mid, acc in record.get("accuracy", {}).items():
-        results[mid] = (acc["recomputed"], acc["reference"], acc["unit"])
+        results[mid] = (acc["recomputed"], acc["reference"], acc["unit"], acc.get("sigma"))
     return {
         "student_id": record.get("student_id") or "",
         "name": record.get("name") or "",

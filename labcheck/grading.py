@@ -31,6 +31,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .chain import Chain, evaluate_chain, evaluate_step, finite
+from .uncertainty import propagate
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
@@ -89,31 +91,6 @@ def safe_id(text: str) -> str:
     """A file-name-safe id: letters, digits, ``_ . -`` only, no leading dot."""
     s = _SAFE_ID.sub("_", text.strip()).strip("._") or "unnamed"
     return s[:80]
-
-
-def _f(x) -> float | None:
-    """A finite float, or None."""
-    if x is None:
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-def _evaluate(step: Step, inputs: dict) -> tuple[float | None, str | None]:
-    """The step's value, or None with the reason (a step raises ValueError with words for the student)."""
-    with np.errstate(all="ignore"):
-        try:
-            value = _f(step.evaluate(inputs))
-        except ValueError as exc:
-            return None, str(exc)
-        except (ZeroDivisionError, OverflowError):
-            value = None
-    if value is None:
-        return None, "the recomputation has no finite value for these inputs (check your observations)"
-    return value, None
 
 
 def display_decimals(rule: StepRule, value_display: float | None) -> int:
@@ -288,7 +265,7 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
                 continue
             with np.errstate(all="ignore"):
                 try:
-                    value = _f(variant.compute(step, inputs))
+                    value = finite(variant.compute(step, inputs))
                 except (ValueError, ZeroDivisionError, OverflowError):
                     value = None
             # Name a mistake only when it is told apart from the right value on the same inputs.
@@ -320,51 +297,6 @@ def _diagnose(rule: StepRule, spec: LabSpec, reported: float, ref_inputs: dict, 
 
 
 @dataclass
-class Chain:
-    """A method's steps recomputed from given observations and constants (SI)."""
-
-    expected: dict  # step id -> value, or None when it cannot be recomputed
-    missing_reasons: dict  # step id -> reasons it cannot be recomputed
-    inputs: dict  # step id -> the inputs it was evaluated with
-
-
-def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | None = None) -> Chain:
-    """Recompute every step of ``method`` in order from ``obs`` and ``consts`` (pure).
-
-    A step whose inputs are missing, or whose function finds its inputs
-    inconsistent (``ValueError``), gets ``None`` and the reasons, and so do
-    the steps that depend on it.  Used by grading, uncertainty propagation
-    and the mistake catalogue's tests.
-    """
-    missing_obs = missing_obs or {}
-    chain = Chain({}, {}, {})
-    for step in method.steps:
-        inputs, reasons = {}, []
-        for name in step.inputs:
-            if name in method.step_ids:
-                if chain.expected.get(name) is not None:
-                    inputs[name] = chain.expected[name]
-                else:
-                    reasons.extend(chain.missing_reasons.get(name, (f"step {name} could not be recomputed",)))
-            elif name in consts:
-                inputs[name] = consts[name]
-            elif name in obs:
-                inputs[name] = obs[name]
-            else:
-                reasons.append(missing_obs.get(name, f"{name} was not given"))
-        value = None
-        if not reasons:
-            value, reason = _evaluate(step, inputs)
-            if reason:
-                reasons.append(reason)
-        chain.expected[step.id] = value
-        chain.inputs[step.id] = inputs
-        if reasons:
-            chain.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
-    return chain
-
-
-@dataclass
 class _MethodRun:
     """What grading one method of one submission accumulates, step by step."""
 
@@ -383,6 +315,7 @@ class _MethodRun:
         return {k: "; ".join(v) for k, v in self.missing_reasons.items()}
     reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
     verdicts: dict[str, str] = field(default_factory=dict)
+    sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
         """The step's inputs with the student's own reported earlier values, if they reported any."""
@@ -492,7 +425,7 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
                 ref_out = reference.func(*(ref_inputs[n] for n in reference.inputs))
             except ValueError as exc:
                 missing.append(str(exc))
-    ref = _f(ref_out["value"]) if ref_out else None
+    ref = finite(ref_out["value"]) if ref_out else None
     details, notes = [], []
     if ref_out:
         for key, label, k, unit in reference.extras:
@@ -513,7 +446,8 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
         why = run.why_missing.get(method.result_step) if value is None else "; ".join(missing)
         text = f"Cannot be judged: {why or 'the result could not be recomputed'}."
     else:
-        frac = acc.score_fraction(value, ref)
+        sigma = run.sigmas.get(method.result_step)
+        frac = acc.score_fraction(value, ref, sigma)
         if kind == "angle":  # a percentage of a latitude means nothing: give the difference
             err_pct = None
             off = format_value(abs(value - ref), rule.unit, kind, 2)
@@ -526,10 +460,19 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
                 f"{_pct_text(abs(err_pct))} {'above' if err_pct > 0 else 'below'} the {reference.label} "
                 f"{format_value(ref, rule.unit, kind, 8)}."
             )
+    sigma = run.sigmas.get(method.result_step)
+    if sigma and value is not None and ref is not None:
+        pm = format_value(sigma, rule.unit, kind, 2)
+        text += (f" From your instruments' precision the result is uncertain by ± {pm} (one standard deviation); "
+                 f"the difference is {abs(value - ref) / sigma:.1f} σ.")
+    elif acc.kind == "sigma" and value is not None:
+        text += " No uncertainty could be propagated, so the sigma rule cannot be applied."
     rep = sub.results.get(rule.key)
     return {
         "method": method.id,
         "step": rule.key,
+        "sigma": _display(sigma, rule.unit, kind) if sigma else None,
+        "sigmas_off": round(abs(value - ref) / sigma, 3) if sigma and value is not None and ref is not None else None,
         "unit": rule.unit,
         "reference_label": reference.label,
         "reference": _display(ref, rule.unit, kind),
@@ -605,13 +548,19 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
     chain = evaluate_chain(method, obs, consts, missing_obs)
     run = _MethodRun(method, spec, obs, missing_obs, consts, consts_text,
                      expected=chain.expected, missing_reasons=chain.missing_reasons)
+    sigmas = {}
+    if spec.has_uncertainty:
+        counts = {name: len(readings) for name, (_, readings) in used.items()}
+        sigmas = propagate(method, obs, consts, spec.observation_sigma,
+                           {k: v for k, v in spec.constant_sigma.items() if k in consts}, counts)
+    run.sigmas = sigmas
     records = []
     for rule in spec.steps_of(method):
         step = rule.step
         ref_inputs = chain.inputs[step.id]
         exp = chain.expected[step.id]
         own_inputs = run.own_inputs(step, ref_inputs)
-        own = _evaluate(step, own_inputs)[0] if own_inputs is not None else None
+        own = evaluate_step(step, own_inputs)[0] if own_inputs is not None else None
 
         rep = sub.results.get(rule.key)
         if rep is not None:
@@ -635,6 +584,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "reported_row": rep.row if rep is not None else None,
             "carried_expected": _display(own, rule.unit, step.kind) if show_own else None,
             "tolerance": rule.tolerance.text,
+            "sigma": _display(sigmas.get(step.id), rule.unit, step.kind) if sigmas.get(step.id) else None,
             "decimals": display_decimals(rule, _display(exp if exp is not None else (rep.si if rep else None), rule.unit, step.kind)),
             "verdict": verdict,
             "points": round(rule.points * factor, 3),

@@ -110,6 +110,7 @@ class Renderer:
                         for i in s["inputs"]
                     ],
                     "expected": fmt_fixed(s["expected"], dec, unit),
+                    "sigma": ("± " + fmt_fixed(s["sigma"], dec, unit)) if s.get("sigma") else "",
                     "reported": fmt_fixed(s["reported"], dec, unit),
                     "reported_as": s["reported_as"] or "",
                     "carried": fmt_fixed(s["carried_expected"], dec, unit) if s["carried_expected"] is not None else "",
@@ -253,15 +254,22 @@ class Renderer:
         for m in methods:
             pts = []
             for s in graded:
-                value, ref, unit = s["results"].get(m.id, (None, None, None))
-                if value is not None and ref is not None and (angular or ref):
+                value, ref, unit, sigma = s["results"].get(m.id, (None, None, None, None))
+                if acc.kind == "sigma":
+                    if value is not None and ref is not None and sigma:
+                        pts.append(((value - ref) / sigma, s, value, unit))
+                        references.append(ref)
+                elif value is not None and ref is not None and (angular or ref):
                     pts.append(((value - ref) if angular else 100.0 * (value - ref) / ref, s, value, unit))
                     references.append(ref)
             errors[m.id] = pts
         if not references:
             return None
         axis_unit = "%"
-        if angular:  # differences in the result's own unit
+        if acc.kind == "sigma":  # each group by its own propagated standard deviation
+            axis_unit = "σ"
+            full_pct, zero_pct, band_note = acc.full_within, acc.zero_beyond, ""
+        elif angular:  # differences in the result's own unit
             axis_unit = next(u for pts in errors.values() for _, _, _, u in pts)
             full_pct = float(from_si(acc.full_within, axis_unit, "angle"))
             zero_pct = float(from_si(acc.zero_beyond, axis_unit, "angle"))

@@ -32,6 +32,7 @@ SCHEMA_DOC = {
     "grading": "carried_fraction, pass_fraction (optional)",
     "accuracy": "points, full_within, zero_beyond (optional: without it no accuracy is judged)",
     "mistakes": "per mistake id: replacement explanation text (optional)",
+    "uncertainty": "standard deviations of constants, e.g. the day's refraction coefficient (optional)",
     "course": "course name shown on sheets (optional)",
 }
 
@@ -95,13 +96,21 @@ class AccuracyRule:
     kind: str  # 'relative' or 'absolute'
     text: str
 
-    def score_fraction(self, value_si: float, reference_si: float) -> float:
-        """1 within the full band, 0 beyond the zero band, linear between."""
+    def score_fraction(self, value_si: float, reference_si: float, sigma_si: float | None = None) -> float:
+        """1 within the full band, 0 beyond the zero band, linear between.
+
+        For bands in sigmas the distance is counted in the result's own
+        propagated standard deviation ``sigma_si``.
+        """
         if not math.isfinite(value_si):
             return 0.0
         err = abs(value_si - reference_si)
         if self.kind == "relative":
             err = err / abs(reference_si)
+        elif self.kind == "sigma":
+            if not sigma_si:
+                return 0.0
+            err = err / sigma_si
         if err <= self.full_within:
             return 1.0
         if err >= self.zero_beyond:
@@ -127,6 +136,15 @@ class LabSpec:
     pass_fraction: float
     accuracy: AccuracyRule | None  # None: the lab judges no accuracy
     mistakes: dict[str, str] = field(default_factory=dict)
+    constant_sigma: dict[str, float] = field(default_factory=dict)  # SI
+
+    @property
+    def observation_sigma(self) -> dict[str, float]:
+        return {name: rule.sigma_si for name, rule in self.observations.items() if rule.sigma_si}
+
+    @property
+    def has_uncertainty(self) -> bool:
+        return bool(self.observation_sigma or self.constant_sigma)
 
     def step_key(self, method_id: str, step_id: str) -> str:
         return public_step_key(self.methods, method_id, step_id)
@@ -393,6 +411,22 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add("accuracy", f"the methods' results are of different kinds ({', '.join(sorted(kinds))}); one accuracy rule cannot judge them")
         accuracy = _parse_accuracy(acc_raw, c, kinds.pop() if len(kinds) == 1 else "length")
 
+    unc_raw = c.get(raw, "uncertainty", "", dict, required=False, default={}) or {}
+    constant_sigma: dict[str, float] = {}
+    for name, text in unc_raw.items():
+        if name not in declared:
+            c.add(f"uncertainty.{name}", f"unknown constant; the methods use: {', '.join(declared) or 'none'}")
+            continue
+        try:
+            constant_sigma[name] = _parse_constant(text, declared[name].kind)
+            if constant_sigma[name] <= 0:
+                c.add(f"uncertainty.{name}", f"expected a positive standard deviation, got {text!r}")
+        except UnitError as exc:
+            c.add(f"uncertainty.{name}", str(exc))
+    if accuracy is not None and accuracy.kind == "sigma" and not (constant_sigma or any(
+            isinstance(t, dict) and "sigma" in t for t in obs_raw.values())):
+        c.add("accuracy", "bands in sigma need standard deviations: give [observations.<name>] sigma for the instruments")
+
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
     from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
 
@@ -423,6 +457,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         pass_fraction=float(pass_fraction),
         accuracy=accuracy,
         mistakes=dict(mistakes),
+        constant_sigma=constant_sigma,
     )
 
 
@@ -438,6 +473,8 @@ def _parse_band(text, path: str, c: _Checker, kind: str = "length") -> tuple[flo
     if number < 0:
         c.add(path, f"expected a band of 0 or more, got {text!r}")
         return None
+    if unit in ("sigma", "σ"):
+        return number, "sigma"
     if unit == "%" and kind != "angle":
         return number / 100.0, "relative"
     if unit in UNITS.get(kind, {}):
@@ -460,10 +497,12 @@ def _parse_accuracy(acc: dict, c: _Checker, kind: str = "length") -> AccuracyRul
         c.add("accuracy.zero_beyond", 'missing; expected a band such as "20 %" or "1300 km"')
     if full and zero:
         if full[1] != zero[1]:
-            c.add("accuracy", "full_within and zero_beyond must both be in % or both lengths (or both angles)")
+            c.add("accuracy", "full_within and zero_beyond must both be in % or in sigma, or both lengths (or both angles)")
         elif zero[0] <= full[0]:
             c.add("accuracy.zero_beyond", "expected a band wider than full_within")
     if not (full and zero):
         return AccuracyRule(float(points or 0), 0.0, 1.0, "relative", "")
     text = f"full points within {acc['full_within']}, none beyond {acc['zero_beyond']}, linear between"
+    if full[1] == "sigma":
+        text += " (σ: your result's uncertainty propagated from the instruments' standard deviations)"
     return AccuracyRule(float(points), full[0], zero[0], full[1], text)

@@ -84,10 +84,19 @@ def test_not_toml():
 
 
 def test_accuracy_bands_must_agree_and_widen():
-    err = bad(base().replace('zero_beyond = "25 %"', 'zero_beyond = "3 %"'))
+    assert 'zero_beyond = "4 sigma"' in base()
+    err = bad(base().replace('zero_beyond = "4 sigma"', 'zero_beyond = "1 sigma"'))
     assert "accuracy.zero_beyond: expected a band wider than full_within" in str(err)
-    err = bad(base().replace('zero_beyond = "25 %"', 'zero_beyond = "1500 km"'))
-    assert "both be in % or both lengths" in str(err)
+    err = bad(base().replace('zero_beyond = "4 sigma"', 'zero_beyond = "1500 km"'))
+    assert "must both be in % or in sigma, or both lengths" in str(err)
+
+
+def test_sigma_bands_need_standard_deviations():
+    import re
+
+    text = re.sub(r"\nsigma = .*", "", base())
+    text = text.replace('[uncertainty]\n', "").replace('k = "0.03"\n', "", 1)
+    assert "bands in sigma need standard deviations" in str(bad(text))
 
 
 def test_unknown_keys_are_reported():

@@ -1,0 +1,83 @@
+"""Recompute a method's steps from given inputs: the one evaluation that grading,
+uncertainty propagation and the tests share.  Pure: numbers in, numbers out."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from .methods import Method, Step
+
+__all__ = ["Chain", "evaluate_chain", "evaluate_step", "finite"]
+
+
+def finite(x) -> float | None:
+    """A finite float, or None."""
+    if x is None:
+        return None
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def evaluate_step(step: Step, inputs: dict) -> tuple[float | None, str | None]:
+    """The step's value, or None with the reason (a step raises ValueError with words for the student)."""
+    with np.errstate(all="ignore"):
+        try:
+            value = finite(step.evaluate(inputs))
+        except ValueError as exc:
+            return None, str(exc)
+        except (ZeroDivisionError, OverflowError):
+            value = None
+    if value is None:
+        return None, "the recomputation has no finite value for these inputs (check your observations)"
+    return value, None
+
+
+@dataclass
+class Chain:
+    """A method's steps recomputed from given observations and constants (SI)."""
+
+    expected: dict  # step id -> value, or None when it cannot be recomputed
+    missing_reasons: dict  # step id -> reasons it cannot be recomputed
+    inputs: dict  # step id -> the inputs it was evaluated with
+
+
+def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | None = None) -> Chain:
+    """Recompute every step of ``method`` in order from ``obs`` and ``consts`` (pure).
+
+    A step whose inputs are missing, or whose function finds its inputs
+    inconsistent (``ValueError``), gets ``None`` and the reasons, and so do
+    the steps that depend on it.  Used by grading, uncertainty propagation
+    and the mistake catalogue's tests.
+    """
+    missing_obs = missing_obs or {}
+    chain = Chain({}, {}, {})
+    for step in method.steps:
+        inputs, reasons = {}, []
+        for name in step.inputs:
+            if name in method.step_ids:
+                if chain.expected.get(name) is not None:
+                    inputs[name] = chain.expected[name]
+                else:
+                    reasons.extend(chain.missing_reasons.get(name, (f"step {name} could not be recomputed",)))
+            elif name in consts:
+                inputs[name] = consts[name]
+            elif name in obs:
+                inputs[name] = obs[name]
+            else:
+                reasons.append(missing_obs.get(name, f"{name} was not given"))
+        value = None
+        if not reasons:
+            value, reason = evaluate_step(step, inputs)
+            if reason:
+                reasons.append(reason)
+        chain.expected[step.id] = value
+        chain.inputs[step.id] = inputs
+        if reasons:
+            chain.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
+    return chain
