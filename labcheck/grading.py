@@ -33,6 +33,7 @@ import numpy as np
 
 from .chain import Chain, evaluate_chain, evaluate_step, finite
 from .uncertainty import propagate
+from .reductions.stats import grubbs_test, scatter_test
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
@@ -489,36 +490,70 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
     }, notes
 
 
+_CHECK_NOTES = {"noon_timing", "face_pair_closure"}  # method notes that count as quality checks
+
+
 def _pct_text(p: float) -> str:
     return f"{p:.1f} %" if p >= 1 else f"{p:.2g} %"
 
 
-def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str]) -> list[dict]:
-    """Field-quality notes: number of repeated readings and their spread against the instrument."""
-    quality = []
+def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expected: dict) -> list[dict]:
+    """Field-data quality: checks (scored) and notes (not scored).
+
+    Checks: enough readings; the readings' scatter against the instrument's σ
+    (two-sided chi-square test at the spec's α); outliers by Grubbs' test,
+    flagged and never dropped; forward/back precision against the spec's standard.
+    """
+    q = spec.quality
+    out = []
+
+    def check(name, ok, text, check_id):
+        out.append({"method": method.id, "observation": name, "ok": ok, "text": text, "id": check_id, "check": True})
+
     for name, (_, readings) in used.items():
         o = method.observation(name)
         rule = spec.observations[name]
         n = len(readings)
         if o.repeated or rule.min_readings > 1:
             ok = n >= rule.min_readings
-            quality.append({
-                "method": method.id, "observation": name, "ok": ok,
-                "text": f"{o.label}: {n} reading{'s' if n != 1 else ''}"
-                + ("" if ok else f"; the lab asks for at least {rule.min_readings}") + ".",
-            })
-        if n >= 2 and o.spread and o.kind != "choice":
-            sd = float(np.std([r.si for r in readings], ddof=1))
-            text = f"{o.label}: spread of the readings (standard deviation) {format_value(sd, rule.unit, o.kind, 2)}"
-            ok = True
-            if rule.sigma_si:
-                text += f"; the instrument's standard deviation is {rule.sigma_text}"
-                ok = sd <= 3 * rule.sigma_si
-                if not ok:
-                    text += ": more than three times larger. Check for a misread or a moved instrument"
-            quality.append({"method": method.id, "observation": name, "ok": ok, "text": text + "."})
-    quality += [{"method": method.id, "observation": None, "ok": True, "text": note} for note in notes]
-    return quality
+            check(name, ok, f"{o.label}: {n} reading{'s' if n != 1 else ''}"
+                  + ("" if ok else f"; the lab asks for at least {rule.min_readings}") + ".", "reading_count")
+        if n < 2 or not o.spread or o.kind == "choice":
+            continue
+        values = [r.si for r in readings]
+        if rule.sigma_si:
+            t = scatter_test(values, rule.sigma_si)
+            sd_text = format_value(t["sd"], rule.unit, o.kind, 2)
+            base = (f"{o.label}: readings scatter by {sd_text} (standard deviation of {n}); "
+                    f"the instrument's is {rule.sigma_text}")
+            if t["p_high"] < q.alpha:
+                check(name, False, base + f". Scatter this large happens by chance with probability "
+                      f"{t['p_high']:.2g} (chi-square test): check for a misread or a moved instrument.", "scatter_high")
+            elif t["p_low"] < q.alpha:
+                check(name, False, base + f". Scatter this small happens by chance with probability {t['p_low']:.2g} "
+                      "(chi-square test): were the readings independent, and is the instrument's σ right?", "scatter_low")
+            else:
+                check(name, True, base + f": consistent (chi-square test, p = {min(t['p_high'], t['p_low']) * 2:.2g}).",
+                      "scatter")
+        else:
+            sd = float(np.std(values, ddof=1))
+            out.append({"method": method.id, "observation": name, "ok": True, "id": "scatter", "check": False,
+                        "text": f"{o.label}: readings scatter by {format_value(sd, rule.unit, o.kind, 2)} "
+                                f"(standard deviation of {n})."})
+        g = grubbs_test(values, q.outlier_alpha)
+        if g is not None:
+            r = readings[g["index"]]
+            check(name, False, f"{o.label}: the reading on row {r.row} ({r.text} {r.unit}) stands apart from the others "
+                  f"(Grubbs' test: G = {g['G']:.2f} > {g['critical']:.2f} for {n} readings at α = {q.outlier_alpha}). "
+                  "It is kept in your mean: check it against your field book.", "outlier")
+    if q.precision_standard and expected.get("precision_ratio") is not None:
+        n_ratio = expected["precision_ratio"]
+        ok = n_ratio >= q.precision_standard
+        check(None, ok, f"Forward and back runs agree to 1:{n_ratio:,.0f}; the lab's standard is "
+              f"1:{q.precision_standard:,.0f}" + ("." if ok else ": re-tape the line or look for a blunder."),
+              "precision_ratio")
+    out += [{"method": method.id, "observation": None, "ok": True, "text": note, "check": False} for note in notes]
+    return out
 
 
 def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) -> list[dict]:
@@ -593,11 +628,12 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "explanation": explanation,
         })
     accuracy, reference_notes = _accuracy(run, sub)
-    quality = _quality(method, spec, used, obs_notes + const_notes) + reference_notes
+    quality = _quality(method, spec, used, obs_notes + const_notes, chain.expected) + reference_notes
     if method.notes is not None:
         written = {name: readings[-1].text for name, (_, readings) in used.items()}
         for note_id, ok, text in method.notes(obs, consts, written):
-            quality.append({"method": method.id, "observation": None, "ok": ok, "text": text, "id": note_id})
+            quality.append({"method": method.id, "observation": None, "ok": ok, "text": text, "id": note_id,
+                            "check": note_id in _CHECK_NOTES})
     return records, accuracy, quality, _observations_shown(method, spec, obs, used)
 
 
@@ -632,8 +668,17 @@ def grade_submission(sub: Submission, spec: LabSpec) -> dict:
             accuracy[m.id] = a
         quality += q
         observations += o
+    checks = [q for q in quality if q.get("check")]
+    quality_score = None
+    if spec.quality.points and checks:
+        passed = sum(1 for q in checks if q["ok"])
+        quality_score = {"points": round(spec.quality.points * passed / len(checks), 3),
+                         "max_points": spec.quality.points, "passed": passed, "checks": len(checks)}
     score = sum(s["points"] for s in steps) + sum(a["points"] for a in accuracy.values())
     max_score = sum(s["max_points"] for s in steps) + sum(a["max_points"] for a in accuracy.values())
+    if quality_score:
+        score += quality_score["points"]
+        max_score += quality_score["max_points"]
     flags = [p.as_dict() for p in sub.problems]
     return {
         "submission": sub.source,
@@ -650,6 +695,7 @@ def grade_submission(sub: Submission, spec: LabSpec) -> dict:
         "steps": steps,
         "accuracy": accuracy,
         "quality": quality,
+        "quality_score": quality_score,
         "flags": flags,
         "observations": observations,
         "notes": sub.notes,
@@ -661,7 +707,7 @@ def unreadable_record(source: str, error: str) -> dict:
     return {
         "submission": source, "student_id": "", "name": "", "group": "", "date": "", "site": "",
         "status": "unreadable", "error": error, "methods": [], "score": None, "max_score": None,
-        "steps": [], "accuracy": {}, "quality": [], "flags": [], "observations": [], "notes": [],
+        "steps": [], "accuracy": {}, "quality": [], "quality_score": None, "flags": [], "observations": [], "notes": [],
     }
 
 

@@ -150,6 +150,9 @@ class Renderer:
             flags=record["flags"],
             notes=record["notes"],
             advisory=ADVISORY,
+            quality_score=(f"{_points(record['quality_score']['points'])} / {_points(record['quality_score']['max_points'])} "
+                           f"({record['quality_score']['passed']} of {record['quality_score']['checks']} checks passed)")
+            if record.get("quality_score") else "",
             version=__version__,
             generated=self.generated,
         )

@@ -16,7 +16,7 @@ from pathlib import Path
 from .methods import METHODS, Method, Step
 from .units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
 
-__all__ = ["SpecError", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
+__all__ = ["SpecError", "QualityRule", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
 
 # Each top-level key, what it holds, and whether it is required.  docs/spec.md
 # documents the same keys (tests/test_spec.py checks every key is there).
@@ -33,6 +33,7 @@ SCHEMA_DOC = {
     "accuracy": "points, full_within, zero_beyond (optional: without it no accuracy is judged)",
     "mistakes": "per mistake id: replacement explanation text (optional)",
     "uncertainty": "standard deviations of constants, e.g. the day's refraction coefficient (optional)",
+    "quality": "field-data quality: points, alpha, outlier_alpha, precision_standard (optional)",
     "course": "course name shown on sheets (optional)",
 }
 
@@ -89,6 +90,14 @@ class ObservationRule:
 
 
 @dataclass(frozen=True)
+class QualityRule:
+    points: float = 0.0  # 0: quality is noted on the sheet but not scored
+    alpha: float = 0.01  # significance of the scatter (chi-square) tests
+    outlier_alpha: float = 0.05  # significance of Grubbs' outlier test
+    precision_standard: float | None = None  # forward/back agreement required, N in 1:N
+
+
+@dataclass(frozen=True)
 class AccuracyRule:
     points: float
     full_within: float  # relative (fraction) or absolute metres, see kind
@@ -137,6 +146,7 @@ class LabSpec:
     accuracy: AccuracyRule | None  # None: the lab judges no accuracy
     mistakes: dict[str, str] = field(default_factory=dict)
     constant_sigma: dict[str, float] = field(default_factory=dict)  # SI
+    quality: QualityRule = field(default_factory=QualityRule)
 
     @property
     def observation_sigma(self) -> dict[str, float]:
@@ -427,6 +437,22 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             isinstance(t, dict) and "sigma" in t for t in obs_raw.values())):
         c.add("accuracy", "bands in sigma need standard deviations: give [observations.<name>] sigma for the instruments")
 
+    q_raw = c.get(raw, "quality", "", dict, required=False, default={}) or {}
+    for k in q_raw:
+        if k not in ("points", "alpha", "outlier_alpha", "precision_standard"):
+            c.add(f"quality.{k}", "unknown key; expected points, alpha, outlier_alpha or precision_standard")
+    q_points = c.get(q_raw, "points", "quality", (int, float), required=False, default=0)
+    q_alpha = c.get(q_raw, "alpha", "quality", float, required=False, default=0.01, what="a probability such as 0.01")
+    q_out = c.get(q_raw, "outlier_alpha", "quality", float, required=False, default=0.05, what="a probability such as 0.05")
+    q_prec = c.get(q_raw, "precision_standard", "quality", (int, float), required=False, default=None,
+                   what="N of the 1:N standard, e.g. 5000")
+    for key, v in (("alpha", q_alpha), ("outlier_alpha", q_out)):
+        if not 0 < v < 0.5:
+            c.add(f"quality.{key}", f"expected a probability between 0 and 0.5, got {v}")
+    if q_points < 0:
+        c.add("quality.points", f"expected 0 or more points, got {q_points}")
+    quality_rule = QualityRule(float(q_points), float(q_alpha), float(q_out), float(q_prec) if q_prec else None)
+
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
     from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
 
@@ -458,6 +484,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         accuracy=accuracy,
         mistakes=dict(mistakes),
         constant_sigma=constant_sigma,
+        quality=quality_rule,
     )
 
 

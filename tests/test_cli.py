@@ -178,7 +178,7 @@ def test_check_prints_a_table(tmp_path, capsys):
     p.write_bytes(csv_bytes(good_dip_rows()))
     assert main(["check", "horizon_dip", str(p)]) == 0
     out = capsys.readouterr().out
-    assert "dip.radius_apparent" in out and "correct" in out and "/ 12 (advisory)" in out
+    assert "dip.radius_apparent" in out and "correct" in out and "(advisory)" in out
     assert out.count("correct") >= 4 and "wrong" not in out
 
 

@@ -31,7 +31,7 @@ def test_correct_submission_gets_full_marks(spec):
     assert rec["methods"] == ["dip"]  # only the attempted method is graded ("any")
     assert [s["verdict"] for s in rec["steps"]] == ["correct"] * 4
     assert sum(s["points"] for s in rec["steps"]) == 8
-    assert rec["max_score"] == 12  # 8 step points + 4 accuracy points
+    assert rec["max_score"] == 8 + 4 + spec.quality.points  # steps, accuracy, field-data quality
 
 
 def test_slip_in_dip_mean_is_carried_forward(spec):
@@ -185,7 +185,7 @@ def test_methods_required_all_scores_the_missing_method(spec):
 
     rec = grade_rows(dc_replace(spec, methods_required="all"), good_dip_rows())
     assert rec["methods"] == ["dip", "hidden_height"]
-    assert rec["max_score"] == 22
+    assert rec["max_score"] == 22 + spec.quality.points
     assert step(rec, "hidden_height.radius")["verdict"] == "missing"
 
 
@@ -232,3 +232,15 @@ def test_missing_reasons_are_given_once(spec):
     rec = grade_rows(spec, [("identity", "student_id", "s9"), ("observation", "dip_angle", "6.0", "arcmin")])
     text = rec["accuracy"]["dip"]["explanation"]
     assert text.count("eye height (eye_height) was not given") == 1
+
+
+def test_scatter_and_outlier_checks(spec):
+    # Readings far tighter than a 20" instrument allows are noted (chi-square lower tail), a wild
+    # reading is flagged by Grubbs' test and kept in the mean.
+    tight = grade_rows(spec, good_dip_rows(readings=(6.0, 6.0, 6.01, 6.0, 6.0)))
+    assert any(q.get("id") == "scatter_low" and not q["ok"] for q in tight["quality"])
+    wild = grade_rows(spec, good_dip_rows(readings=(6.0, 6.1, 5.9, 6.0, 6.05, 5.95, 7.9)))
+    outlier = [q for q in wild["quality"] if q.get("id") == "outlier"]
+    assert outlier and "row" in outlier[0]["text"] and "kept in your mean" in outlier[0]["text"]
+    assert step(wild, "dip_mean")["expected"] == pytest.approx((6.0 + 6.1 + 5.9 + 6.0 + 6.05 + 5.95 + 7.9) / 7, rel=1e-12)
+    assert wild["quality_score"]["passed"] < wild["quality_score"]["checks"]
