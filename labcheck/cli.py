@@ -18,6 +18,7 @@ from . import __version__
 from .batch import OutputExistsError, count_inputs, grade_section
 from .ingest import InputError, Limits, read_rows
 from .resources import shipped_spec, specs_dir
+from .compare import ResultsError
 from .spec import LabSpec, SpecError, load_spec
 
 EXAMPLES = {
@@ -26,6 +27,7 @@ EXAMPLES = {
     "template": "examples:\n  labcheck template horizon_dip --out dip_lab.csv\n  labcheck template lab_specs/horizon_dip.toml --out dip_lab.xlsx",
     "spec": "examples:\n  labcheck spec check my_lab.toml\n  labcheck spec list",
     "demo": "example:\n  labcheck demo --out ~/labcheck-demo",
+    "diff": "example:\n  labcheck diff graded-monday/ graded-retuned/",
 }
 DEMO_MARKER = ".labcheck-demo"
 
@@ -209,6 +211,31 @@ def cmd_demo(args) -> int:
     return worst
 
 
+def cmd_diff(args) -> int:
+    from .compare import diff_runs, load_results
+
+    old, new = load_results(args.old), load_results(args.new)
+    d = diff_runs(old, new)
+    c = _Colour(sys.stdout)
+    if d.old_lab != d.new_lab:
+        print(c(f"warning: the runs grade different labs ({d.old_lab} and {d.new_lab})", "33"))
+    print(f"{len(d.changed)} student(s) changed, {d.unchanged} unchanged"
+          + ("; the lab spec differs between the runs" if d.spec_changed else "; same lab spec"))
+    for ch in d.changed:
+        delta = f"{ch.delta:+g}" if ch.delta is not None else f"{ch.old_status} -> {ch.new_status}"
+        old = "—" if ch.old_score is None else f"{ch.old_score:g}"
+        new = "—" if ch.new_score is None else f"{ch.new_score:g}"
+        print(f"  {ch.key:<16} {ch.name:<24} {old:>7} -> {new:<7} ({delta})")
+        for st in ch.steps:
+            verdicts = f"{st['old_verdict']} -> {st['new_verdict']}" if st["old_verdict"] or st["new_verdict"] else ""
+            print(f"      {st['id']:<36} {st['old_points']} -> {st['new_points']} points  {verdicts}")
+    for key in d.only_old:
+        print(f"  {key}: only in {args.old}")
+    for key in d.only_new:
+        print(f"  {key}: only in {args.new}")
+    return 0
+
+
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
     parser = argparse.ArgumentParser(
@@ -250,6 +277,13 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("file", nargs="?", metavar="FILE")
     p.set_defaults(func=cmd_spec)
 
+    p = sub.add_parser("diff", help="compare two grading runs: whose grade moved", epilog=EXAMPLES["diff"],
+                       formatter_class=fmt, description="Compare two runs' results.json: every student whose score, "
+                       "status or any step's points changed, with old and new points. Writes nothing.")
+    p.add_argument("old", metavar="OLD_DIR")
+    p.add_argument("new", metavar="NEW_DIR")
+    p.set_defaults(func=cmd_diff)
+
     p = sub.add_parser("demo", help="build and grade the bundled demo section", epilog=EXAMPLES["demo"],
                        formatter_class=fmt, description="Generate invented sections of every shipped lab (seeded: the same every time), grade them, and say where the sheets are.")
     p.add_argument("--out", default="labcheck-demo", metavar="DIR", help="folder for the demo (default: ./labcheck-demo)")
@@ -270,7 +304,7 @@ def main(argv: list[str] | None = None) -> int:
     except SpecError as exc:
         print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
         return 2
-    except (InputError, OutputExistsError) as exc:
+    except (InputError, OutputExistsError, ResultsError) as exc:
         print(f"labcheck: {exc}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:

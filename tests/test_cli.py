@@ -235,3 +235,37 @@ def test_every_shipped_spec_checks(capsys):
 
     for f in sorted(specs_dir().glob("*.toml")):
         assert main(["spec", "check", str(f)]) == 0, f.name
+
+
+def test_diff_lists_exactly_the_students_a_tolerance_change_moves(tmp_path, capsys):
+    # Two runs of one section; the second with a tighter tolerance on dip.radius_apparent.
+    # Which students move is worked out here from the first run's own numbers.
+    from labcheck.resources import shipped_spec
+
+    (tmp_path / "in").mkdir()
+    rows_list = {
+        "s1": good_dip_rows(sid="s1"),
+        "s2": [r if r[1] != "dip.radius_apparent" else (r[0], r[1], str(round(float(r[2]) * 1.003, 1)), r[3]) for r in good_dip_rows(sid="s2")],
+        "s3": [r if r[1] != "dip.radius_apparent" else (r[0], r[1], str(round(float(r[2]) * 0.9985, 1)), r[3]) for r in good_dip_rows(sid="s3")],
+    }
+    for sid, rows in rows_list.items():
+        (tmp_path / "in" / f"{sid}.csv").write_bytes(csv_bytes(rows))
+    assert main(["grade", "horizon_dip", str(tmp_path / "in"), "--out", str(tmp_path / "a"), "--quiet"]) == 0
+    tight = tmp_path / "tight.toml"
+    text = shipped_spec("horizon_dip").read_text(encoding="utf-8")
+    tight.write_text(text.replace('[steps."dip.radius_apparent"]\npoints = 3\ntolerance = "0.5 %"',
+                                  '[steps."dip.radius_apparent"]\npoints = 3\ntolerance = "0.2 %"'), encoding="utf-8")
+    assert main(["grade", str(tight), str(tmp_path / "in"), "--out", str(tmp_path / "b"), "--quiet"]) == 0
+    first = load(tmp_path / "a")["submissions"]
+    moved = set()
+    for rec in first:
+        s = next(x for x in rec["steps"] if x["id"] == "dip.radius_apparent")
+        if abs(s["reported"] - s["expected"]) > 0.002 * abs(s["expected"]):
+            moved.add(rec["student_id"])
+    assert moved == {"s2"}  # 0.3 % off moves; 0.15 % off does not
+    capsys.readouterr()
+    assert main(["diff", str(tmp_path / "a"), str(tmp_path / "b")]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("1 student(s) changed, 2 unchanged; the lab spec differs")
+    assert "s2" in out and "s1 " not in out and "s3" not in out
+    assert "dip.radius_apparent" in out and "3.0 -> 0.0 points  correct -> wrong" in out
