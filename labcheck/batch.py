@@ -10,6 +10,7 @@ with the size of the section.
 
 from __future__ import annotations
 
+import json
 import re
 import shutil
 import traceback
@@ -19,6 +20,7 @@ from pathlib import Path, PurePosixPath
 from typing import Callable
 
 from .grading import grade_submission, missing_record, safe_id, unreadable_record
+from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
 from .ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster
 from .outputs import ResultsWriter, gradebook_row, write_gradebook
 from .render import Renderer
@@ -27,7 +29,7 @@ from .submission import normalise, observation_keys, result_keys
 
 __all__ = ["OutputExistsError", "RunSummary", "grade_section", "count_inputs", "OUTPUT_NAMES"]
 
-OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback")
+OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json")
 
 
 class OutputExistsError(Exception):
@@ -46,6 +48,7 @@ class RunSummary:
     internal_errors: list[str] = field(default_factory=list)
     mean_percent: float | None = None
     n_pass: int = 0
+    n_leads: int = 0
 
     @property
     def exit_code(self) -> int:
@@ -126,6 +129,7 @@ def grade_section(
     used_sheet_names: set[str] = set()
     seen_ids: dict[str, str] = {}
 
+    evidence = []
     count = 0
     for item in iter_submissions(inputs, limits, exclude=exclude):
         count += 1
@@ -160,6 +164,7 @@ def grade_section(
                 record["sheet"] = f"feedback/{sheet}"
                 sheet_links[len(summaries)] = record["sheet"]
             run.n_graded += 1
+            evidence.append(collect_evidence(record, item.rows, spec.shared_items))
         else:
             run.n_unreadable += 1
             record["sheet"] = None
@@ -178,7 +183,12 @@ def grade_section(
     writer.close({"skipped": skipped})
 
     write_gradebook(out / "gradebook.csv", spec, [s["gradebook"] for s in summaries])
-    (out / "section.html").write_text(renderer.section(summaries, skipped, sheet_links), encoding="utf-8")
+    leads = find_leads(evidence)
+    run.n_leads = len(leads)
+    (out / "integrity.json").write_text(json.dumps({"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD,
+                                                    "leads": leads}, indent=1, ensure_ascii=False), encoding="utf-8")
+    (out / "integrity.html").write_text(renderer.integrity(leads, len(evidence)), encoding="utf-8")
+    (out / "section.html").write_text(renderer.section(summaries, skipped, sheet_links, len(leads)), encoding="utf-8")
 
     graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
     if graded:

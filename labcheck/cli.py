@@ -100,6 +100,8 @@ def _print_summary(run, spec: LabSpec, out: Path) -> None:
         print(c(f"  {len(run.internal_errors)} file(s) hit a labcheck bug; details on stderr", "31"))
         for err in run.internal_errors:
             print(err, file=sys.stderr)
+    if run.n_leads:
+        print(c(f"  {run.n_leads} integrity lead(s) for your review (instructor only): {out / 'integrity.html'}", "33"))
     print(f"  section summary: {out / 'section.html'}")
     print(f"  feedback sheets: {out / 'feedback'}{os.sep}")
     print(f"  gradebook:       {out / 'gradebook.csv'}")

@@ -507,8 +507,9 @@ def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expect
     q = spec.quality
     out = []
 
-    def check(name, ok, text, check_id):
-        out.append({"method": method.id, "observation": name, "ok": ok, "text": text, "id": check_id, "check": True})
+    def check(name, ok, text, check_id, **numbers):
+        out.append({"method": method.id, "observation": name, "ok": ok, "text": text, "id": check_id, "check": True,
+                    **numbers})
 
     for name, (_, readings) in used.items():
         o = method.observation(name)
@@ -526,15 +527,17 @@ def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expect
             sd_text = format_value(t["sd"], rule.unit, o.kind, 2)
             base = (f"{o.label}: readings scatter by {sd_text} (standard deviation of {n}); "
                     f"the instrument's is {rule.sigma_text}")
+            ps = {"p_high": t["p_high"], "p_low": t["p_low"]}
             if t["p_high"] < q.alpha:
                 check(name, False, base + f". Scatter this large happens by chance with probability "
-                      f"{t['p_high']:.2g} (chi-square test): check for a misread or a moved instrument.", "scatter_high")
+                      f"{t['p_high']:.2g} (chi-square test): check for a misread or a moved instrument.", "scatter_high", **ps)
             elif t["p_low"] < q.alpha:
                 check(name, False, base + f". Scatter this small happens by chance with probability {t['p_low']:.2g} "
-                      "(chi-square test): were the readings independent, and is the instrument's σ right?", "scatter_low")
+                      "(chi-square test): were the readings independent, and is the instrument's σ right?", "scatter_low",
+                      **ps)
             else:
                 check(name, True, base + f": consistent (chi-square test, p = {min(t['p_high'], t['p_low']) * 2:.2g}).",
-                      "scatter")
+                      "scatter", **ps)
         else:
             sd = float(np.std(values, ddof=1))
             out.append({"method": method.id, "observation": name, "ok": True, "id": "scatter", "check": False,

@@ -158,7 +158,24 @@ class Renderer:
         )
 
     # --------------------------------------------------------------- section
-    def section(self, summaries: list[dict], skipped: list[dict], sheet_links: dict[int, str]) -> str:
+    def integrity(self, leads: list[dict], n_submissions: int) -> str:
+        """The instructor's integrity page: leads with their evidence, never shown to students."""
+        from .integrity import CAVEAT, P_LEAD
+
+        kinds = {"shared_readings": "identical readings in two submissions",
+                 "digit_preference": "preferred last digits",
+                 "scatter_too_small": "scatter too small for the instrument",
+                 "too_close_to_reference": "result implausibly close to the reference"}
+        rows = [{"kind": kinds[l["kind"]], "students": ", ".join(f"{k} ({n})" if n else k for k, n in zip(l["students"], l["names"])),
+                 "evidence": l["evidence"], "measure": l["measure"],
+                 "p": f"{l['p']:.2g}" if l["p"] is not None else "—"} for l in leads]
+        return self.env.get_template("integrity.html").render(
+            css=self.css, spec={"title": self.spec.title, "course": self.spec.course, "id": self.spec.id,
+                                "sha": self.spec.sha256[:12], "safety": self.spec.safety},
+            leads=rows, n=n_submissions, caveat=CAVEAT, rate=f"{P_LEAD:g}",
+            expected=f"{n_submissions * 3 * P_LEAD:.1f}", version=__version__, generated=self.generated)
+
+    def section(self, summaries: list[dict], skipped: list[dict], sheet_links: dict[int, str], n_leads: int = 0) -> str:
         """Render section.html from the slim per-submission summaries kept by the batch."""
         spec = self.spec
         graded = [s for s in summaries if s["status"] == "graded"]
@@ -208,6 +225,7 @@ class Renderer:
             unmatched=[s for s in students if s["unmatched"]],
             skipped=skipped,
             students=students,
+            n_leads=n_leads,
             version=__version__,
             generated=self.generated,
         )

@@ -34,6 +34,7 @@ SCHEMA_DOC = {
     "mistakes": "per mistake id: replacement explanation text (optional)",
     "uncertainty": "standard deviations of constants, e.g. the day's refraction coefficient (optional)",
     "quality": "field-data quality: points, alpha, outlier_alpha, precision_standard (optional)",
+    "integrity": "shared: observation items all groups legitimately share, left out of copy leads (optional)",
     "course": "course name shown on sheets (optional)",
 }
 
@@ -147,6 +148,7 @@ class LabSpec:
     mistakes: dict[str, str] = field(default_factory=dict)
     constant_sigma: dict[str, float] = field(default_factory=dict)  # SI
     quality: QualityRule = field(default_factory=QualityRule)
+    shared_items: frozenset = frozenset()  # observation items groups share by design (integrity leads skip them)
 
     @property
     def observation_sigma(self) -> dict[str, float]:
@@ -453,6 +455,15 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         c.add("quality.points", f"expected 0 or more points, got {q_points}")
     quality_rule = QualityRule(float(q_points), float(q_alpha), float(q_out), float(q_prec) if q_prec else None)
 
+    integ = c.get(raw, "integrity", "", dict, required=False, default={}) or {}
+    for k in integ:
+        if k != "shared":
+            c.add(f"integrity.{k}", "unknown key; expected shared")
+    shared = c.get(integ, "shared", "integrity", list, required=False, default=[], what="a list of observation items")
+    for i, item in enumerate(shared):
+        if not isinstance(item, str):
+            c.add(f"integrity.shared[{i}]", f"expected an observation item name, got {item!r}")
+
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
     from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
 
@@ -485,6 +496,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         mistakes=dict(mistakes),
         constant_sigma=constant_sigma,
         quality=quality_rule,
+        shared_items=frozenset(x for x in shared if isinstance(x, str)),
     )
 
 

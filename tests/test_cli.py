@@ -60,12 +60,15 @@ def test_demo_end_to_end(demo, section):
     for group, note_id in section.notes.items():
         assert any(q.get("id") == note_id for q in by_id[f"{prefix}{group:03d}"]["quality"])
     # Groups without a planted mistake: every step correct.
-    planted = set(section.planted) | section.unreadable
+    planted = set(section.planted) | section.unreadable | {int(s[-3:]) for _, ids in section.leads for s in ids}
     for rec in subs:
         if rec["status"] == "graded" and int(rec["student_id"][-3:]) not in planted:
             assert all(s["verdict"] == "correct" for s in rec["steps"]), rec["student_id"]
     if section.missing_student:
         assert by_id[section.missing_student[0]]["status"] == "missing"
+    # The integrity screen raises the planted leads and nothing else.
+    leads = json.loads((graded / "integrity.json").read_text(encoding="utf-8"))["leads"]
+    assert {(l["kind"], tuple(l["students"])) for l in leads} == set(section.leads)
     # Every input file is accounted for: graded, unreadable or skipped.
     with zipfile.ZipFile(folder / section.zip_name) as z:
         members = {f"{section.zip_name}/{n}" for n in z.namelist()}

@@ -31,6 +31,7 @@ class Section:
     unreadable: set[int] = field(default_factory=set)
     bad_rows: dict[int, str] = field(default_factory=dict)  # group -> observation with a misread row
     notes: dict[int, str] = field(default_factory=dict)  # group -> id of a quality note that must appear
+    leads: set = field(default_factory=set)  # (lead kind, student ids) the integrity screen must raise
 
     @property
     def zip_name(self) -> str:
@@ -40,7 +41,7 @@ class Section:
 SECTIONS = (
     Section("horizon_dip", "B", "horizon_dip", dip.dip_section,
             {k: v for k, v in dip.PLANTED.items() if v[0] not in ("unreadable", "bad_row")},
-            dip.MISSING_STUDENT, dip.UNREADABLE, {22: "dip_angle"}),
+            dip.MISSING_STUDENT, dip.UNREADABLE, {22: "dip_angle"}, leads=dip.LEADS),
     Section("taped_baseline", "C", "taped_baseline", baselines.taped_section, baselines.TAPED_PLANTED,
             baselines.TAPED_MISSING),
     Section("baseline_radius", "D", "baseline_radius", baselines.radius_section, baselines.RADIUS_PLANTED,

@@ -21,7 +21,7 @@ import numpy as np
 from ..reductions import horizon as hz
 from .common import DemoGroup, dms, num, person, sig
 
-__all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "dip_section"]
+__all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "COPIED", "FABRICATED", "LEADS", "dip_section"]
 
 TRUE_RADIUS_M = 6371008.8  # IUGG mean radius R1 (Moritz, GRS80)
 SEED = 20261201
@@ -44,17 +44,21 @@ PLANTED = {
 }
 MISSING_STUDENT = ("b2150-025", "Yorick Zennor")  # on the roster, no submission
 UNREADABLE = {15}  # files damaged in upload
+COPIED = (16, 17)  # group 16 hands in group 17's observations and results (an integrity lead)
+FABRICATED = 19  # group 19's dip readings are made up from the known answer (an integrity lead)
+LEADS = {("shared_readings", ("b2150-016", "b2150-017")), ("scatter_too_small", ("b2150-019",))}
 
 
 def _r(x: float, nd: int) -> str:
     return f"{x:.{nd}f}"
 
 
-def dip_section() -> list[DemoGroup]:
+def dip_section(n_groups: int = 24, seed: int = SEED, plant: bool = True) -> list[DemoGroup]:
+    """The section's groups (rows only).  ``plant=False`` gives an honest section of any size."""
     """Generate the section's groups (rows only; nothing is written)."""
-    rng = np.random.default_rng(SEED)
+    rng = np.random.default_rng(seed)
     groups = []
-    for g in range(1, 25):
+    for g in range(1, n_groups + 1):
         sid = f"b2150-{g:03d}"
         name = person(g - 1)
         station, height = STATIONS[(g - 1) % len(STATIONS)]
@@ -66,7 +70,7 @@ def dip_section() -> list[DemoGroup]:
             ("identity", "name", name, "", ""),
             ("identity", "group", f"B{g:02d}", "", ""),
             ("identity", "date", f"2026-09-{8 + (g % 3):02d}", "", ""),
-            ("identity", "site", f"{station}, Harrowby Bluff", "", "=1+1 <b>check with TA</b> & redo?" if g == 5 else ""),
+            ("identity", "site", f"{station}, Harrowby Bluff", "", "=1+1 <b>check with TA</b> & redo?" if (plant and g == 5) else ""),
         ]
         k_true = float(np.clip(rng.normal(0.14, 0.025), 0.06, 0.22))
         r_eff = TRUE_RADIUS_M / (1.0 - k_true)
@@ -75,7 +79,7 @@ def dip_section() -> list[DemoGroup]:
         does_dip = g % 8 != 7
         does_hidden = g % 8 != 5
 
-        if g == 6:  # planted: eye height recorded in feet
+        if (plant and g == 6):  # planted: eye height recorded in feet
             rows.append(("observation", "eye_height", _r(h_meas / 0.3048, 1), "ft", "tape from the benchmark, in feet"))
             h_used_by_student = round(h_meas / 0.3048, 1)  # used as if metres
         else:
@@ -88,6 +92,9 @@ def dip_section() -> list[DemoGroup]:
             dip_true = math.acos(r_eff / (r_eff + h_true))  # apparent (refracted) dip
             n = 6 if g % 5 == 0 else 5
             readings = dip_true + rng.normal(0, math.radians(20 / 3600), n)
+            if plant and g == FABRICATED:  # planted: readings made up from the known answer, far too tight
+                r_ref = TRUE_RADIUS_M / (1.0 - SPEC_K)
+                readings = math.acos(r_ref / (r_ref + h_meas)) + 0 * readings
             theodolite = g % 3 == 0
             texts = []
             for i, d in enumerate(readings):
@@ -96,26 +103,26 @@ def dip_section() -> list[DemoGroup]:
                     texts.append(round(round((math.degrees(d)) * 3600) / 60, 6))
                 else:
                     val = round(math.degrees(d) * 60, 1)
-                    if g == 22 and i == 2:  # planted: a misread row
+                    if (plant and g == 22) and i == 2:  # planted: a misread row
                         rows.append(("observation", "dip_angle", "5.7.2", "arcmin", "wind shook the index"))
                         continue
                     rows.append(("observation", "dip_angle", _r(val, 1), "arcmin", ""))
                     texts.append(val)
             dip_mean = round(float(np.mean(texts)), 2)
-            if g == 9:  # planted: digits transposed when copying the mean
+            if (plant and g == 9):  # planted: digits transposed when copying the mean
                 s = f"{dip_mean:.2f}"
                 dip_mean = float(s[:-2] + s[-1] + s[-2])
             rep.append(("result", "dip_mean", _r(dip_mean, 2), "arcmin", ""))
             d_rad = math.radians(dip_mean / 60)
-            if g == 6:
+            if (plant and g == 6):
                 r_app = float(hz.radius_from_dip(h_used_by_student, d_rad))
-            elif g == 21:  # planted: calculator in radian mode
+            elif (plant and g == 21):  # planted: calculator in radian mode
                 r_app = float(hz.radius_from_dip(h_for_student, math.degrees(d_rad)))
             else:
                 r_app = float(hz.radius_from_dip(h_for_student, d_rad))
             r_app_km = sig(r_app / 1000)
             rep.append(("result", "dip.radius_apparent", num(r_app_km), "km", ""))
-            radius_km = r_app_km if g == 3 else sig((1 - SPEC_K) * r_app_km)
+            radius_km = r_app_km if (plant and g == 3) else sig((1 - SPEC_K) * r_app_km)
             rep.append(("result", "dip.radius", num(radius_km), "km", ""))
             err = round(100 * (radius_km * 1000 - TRUE_RADIUS_M) / TRUE_RADIUS_M, 2)
             rep.append(("result", "dip.radius_error_pct", _r(err, 2), "%", ""))
@@ -128,7 +135,7 @@ def dip_section() -> list[DemoGroup]:
             x_meas = round(max(hidden_true + rng.normal(0, 0.2), 0.1), 1)
             rows.append(("observation", "target_distance", _r(d_meas, 2), "km", "from the chart"))
             rows.append(("observation", "hidden_height", _r(x_meas, 1), "m", "courses of the tower counted"))
-            if g == 18:  # planted: factor 2 forgotten
+            if (plant and g == 18):  # planted: factor 2 forgotten
                 r_app = (d_meas * 1000) ** 2 / (math.sqrt(h_used_by_student) + math.sqrt(x_meas)) ** 2
             else:
                 r_app = float(hz.radius_from_hidden_height(d_meas * 1000, h_used_by_student, x_meas))
@@ -142,4 +149,7 @@ def dip_section() -> list[DemoGroup]:
 
         rows += rep
         groups.append(group)
+    if plant and n_groups >= COPIED[1]:  # planted: one group hands in another's observations
+        copier, source = groups[COPIED[0] - 1], groups[COPIED[1] - 1]
+        copier.rows = [r for r in copier.rows if r[0] == "identity"] + [r for r in source.rows if r[0] != "identity"]
     return groups

@@ -1,0 +1,79 @@
+"""Integrity leads on synthetic sections: known copies and fabrications are found; an honest
+section raises no more leads than the tests' nominal false-alarm rate predicts."""
+
+import math
+
+import pytest
+
+from labcheck.demo.common import csv_bytes
+from labcheck.demo.dip import dip_section
+from labcheck.grading import grade_submission
+from labcheck.ingest import read_rows
+from labcheck.integrity import P_LEAD, collect_evidence, find_leads
+from labcheck.submission import normalise
+
+
+def screen(spec, groups):
+    evidence = []
+    for g in groups:
+        raw = read_rows(csv_bytes(g.rows), f"{g.student_id}.csv")
+        rec = grade_submission(normalise(raw, spec), spec)
+        evidence.append(collect_evidence(rec, raw.rows, spec.shared_items))
+    return find_leads(evidence)
+
+
+@pytest.fixture(scope="module")
+def honest_200():
+    return dip_section(n_groups=200, seed=4242, plant=False)
+
+
+def test_an_honest_section_of_200_raises_few_leads(spec, honest_200):
+    leads = screen(spec, honest_200)
+    # Three statistical tests at p < 0.001 each over 200 groups: 0.6 false leads expected
+    # (Poisson); more than 3 would happen by chance with probability 0.003.
+    expected = 200 * 3 * P_LEAD
+    assert expected == pytest.approx(0.6)
+    assert len(leads) <= 3, leads
+
+
+def test_known_copies_and_fabrications_are_found(spec, honest_200):
+    groups = [g for g in honest_200[:60]]
+    # Two copies: groups 11 and 31 hand in groups 10 and 30's observations (their own identity).
+    for copier, source in ((11, 10), (31, 30)):
+        c, s = groups[copier - 1], groups[source - 1]
+        c.rows = [r for r in c.rows if r[0] == "identity"] + [r for r in s.rows if r[0] != "identity"]
+    # One fabrication: group 45's dip readings all the same number.
+    f = groups[44]
+    value = next(r[2] for r in f.rows if r[1] == "dip_angle") if any(r[1] == "dip_angle" for r in f.rows) else None
+    if value is None:  # a theodolite group: use the zenith readings instead
+        value = next(r[2] for r in f.rows if r[1] == "horizon_zenith_angle")
+        f.rows = [r if r[1] != "horizon_zenith_angle" else (r[0], r[1], value, r[3], r[4]) for r in f.rows]
+    else:
+        f.rows = [r if r[1] != "dip_angle" else (r[0], r[1], value, r[3], r[4]) for r in f.rows]
+    leads = screen(spec, groups)
+    pairs = {tuple(sorted(l["students"])) for l in leads if l["kind"] == "shared_readings"}
+    assert (groups[9].student_id, groups[10].student_id) in pairs
+    assert (groups[29].student_id, groups[30].student_id) in pairs
+    assert any(l["kind"] == "scatter_too_small" and l["students"] == [groups[44].student_id] for l in leads)
+    for l in leads:
+        assert l["evidence"] and (l["p"] is not None or l["distance"] is not None)
+
+
+def test_a_result_too_close_to_the_reference_is_a_lead():
+    from labcheck.integrity import Evidence
+
+    close = Evidence("s1", "", (), (), None, {"dip": 0.0004})
+    fine = Evidence("s2", "", (), (), None, {"dip": 0.3})
+    leads = find_leads([close, fine])
+    assert [l["students"] for l in leads] == [["s1"]]
+    assert leads[0]["p"] == pytest.approx(2 * (0.5 * (1 + math.erf(0.0004 / math.sqrt(2)))) - 1)
+
+
+def test_leads_never_reach_a_student_sheet(tmp_path):
+    from labcheck.cli import main
+
+    out = tmp_path / "demo"
+    main(["demo", "--out", str(out), "--quiet"])
+    sheet = (out / "horizon_dip" / "graded" / "feedback" / "b2150-016.html").read_text(encoding="utf-8")
+    assert "integrity" not in sheet.lower() and "b2150-017" not in sheet
+    assert "b2150-017" in (out / "horizon_dip" / "graded" / "integrity.html").read_text(encoding="utf-8")
