@@ -28,6 +28,7 @@ EXAMPLES = {
     "spec": "examples:\n  labcheck spec check my_lab.toml\n  labcheck spec list",
     "demo": "example:\n  labcheck demo --out ~/labcheck-demo",
     "diff": "example:\n  labcheck diff graded-monday/ graded-retuned/",
+    "tune": "examples:\n  labcheck tune horizon_dip submissions.zip\n  labcheck tune horizon_dip submissions.zip --write horizon_dip_tuned.toml",
 }
 DEMO_MARKER = ".labcheck-demo"
 
@@ -213,6 +214,50 @@ def cmd_demo(args) -> int:
     return worst
 
 
+def cmd_tune(args) -> int:
+    from .ingest import RawSubmission, iter_submissions
+    from .submission import normalise
+    from .tune import tune, tuned_spec_text
+
+    spec = _resolve_spec(args.spec)
+    subs = [normalise(item, spec) for item in iter_submissions(args.inputs)
+            if isinstance(item, RawSubmission) and not item.error]
+    if not subs:
+        raise InputError("no readable submissions in the inputs")
+    report = tune(spec, subs)
+    print(f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}")
+    print("Each row: tolerance, then correct / carried / wrong for the step, mean score, passes. Nothing is changed.")
+    for key, rows in report.steps.items():
+        print(f"\n  {key}")
+        for r in rows:
+            mark = "  <- current" if r.multiplier == 1 else ""
+            print(f"    ×{r.multiplier:<5g} {r.tolerance:<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
+                  f"   mean {r.mean_percent:5.1f} %   pass {r.n_pass}/{report.n}{mark}")
+    if report.accuracy:
+        print(f"\n  accuracy ({spec.accuracy.text})")
+        for r in report.accuracy:
+            mark = "  <- current" if r.multiplier == 1 else ""
+            print(f"    ×{r.multiplier:<5g} {r.tolerance:<22} full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
+                  f"   pass {r.n_pass}/{report.n}{mark}")
+    if report.suggestion:
+        sg = report.suggestion
+        print(f"\n  The section's results carry a median propagated uncertainty of {sg['median_sigma_pct']:.2g} % "
+              f"(1 sigma). Suggested bands: full_within = \"{sg['full_within']}\", zero_beyond = \"{sg['zero_beyond']}\" "
+              "(2 and 4 sigma), or write them in sigmas: \"2 sigma\", \"4 sigma\".")
+    if args.write:
+        if not report.suggestion:
+            raise InputError("no propagated uncertainty to suggest bands from: give the instruments' sigma in the spec")
+        out = Path(args.write)
+        if out.exists() and not args.force:
+            raise OutputExistsError(f"{out} exists; add --force to replace it")
+        text = tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), report.suggestion["full_within"],
+                               report.suggestion["zero_beyond"])
+        out.write_text(text, encoding="utf-8")
+        load_spec(out)  # the tuned copy must itself be a valid spec
+        print(f"\n  wrote the tuned copy {out} (only [accuracy] changed); compare runs with labcheck diff")
+    return 0
+
+
 def cmd_diff(args) -> int:
     from .compare import diff_runs, load_results
 
@@ -278,6 +323,16 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("action", choices=("check", "list"))
     p.add_argument("file", nargs="?", metavar="FILE")
     p.set_defaults(func=cmd_spec)
+
+    p = sub.add_parser("tune", help="see how grades move across a sweep of tolerances", epilog=EXAMPLES["tune"],
+                       formatter_class=fmt, description="For each step's tolerance and the accuracy rule, how many "
+                       "submissions pass and how the scores move at x1/4 to x4 of the current value; suggests accuracy "
+                       "bands from the section's propagated uncertainty. Changes nothing unless --write is given.")
+    p.add_argument("spec", metavar="SPEC")
+    p.add_argument("inputs", metavar="INPUT", nargs="+")
+    p.add_argument("--write", metavar="FILE", help="write a tuned copy of the spec with the suggested accuracy bands")
+    p.add_argument("--force", action="store_true", help="replace FILE if it exists")
+    p.set_defaults(func=cmd_tune)
 
     p = sub.add_parser("diff", help="compare two grading runs: whose grade moved", epilog=EXAMPLES["diff"],
                        formatter_class=fmt, description="Compare two runs' results.json: every student whose score, "

@@ -1,0 +1,131 @@
+"""Tolerance tuning (``labcheck tune``): how grades move across a sweep of tolerances.
+
+Nothing here changes a spec unless asked: the report says, for each step's
+computation tolerance and for the accuracy rule, how many submissions pass
+and how the section's score distribution moves at ×¼, ×½, ×1, ×2 and ×4 of
+the current value; it suggests accuracy bands from the section's own
+propagated uncertainties.  A step's verdict depends only on its own
+tolerance and the earlier steps' values, so each sweep regrades the steps
+only and keeps every other part of each score as graded.
+"""
+
+from __future__ import annotations
+
+import re
+import statistics
+from dataclasses import dataclass, replace
+
+from .grading import grade_submission
+from .spec import AccuracyRule, LabSpec, Tolerance
+from .units import format_value
+
+__all__ = ["MULTIPLIERS", "TuneReport", "tune", "tuned_spec_text"]
+
+MULTIPLIERS = (0.25, 0.5, 1.0, 2.0, 4.0)
+
+
+@dataclass
+class SweepRow:
+    multiplier: float
+    tolerance: str
+    correct: int
+    carried: int
+    wrong: int
+    mean_percent: float
+    n_pass: int
+
+
+@dataclass
+class TuneReport:
+    n: int
+    steps: dict  # step key -> list[SweepRow]
+    accuracy: list  # list[SweepRow] (tolerance = band text)
+    suggestion: dict | None  # {"full_within", "zero_beyond", "median_sigma_pct"}
+
+
+def _scaled(tol: Tolerance, m: float) -> Tolerance:
+    if tol.relative is not None:
+        return Tolerance(f"{tol.relative * m * 100:.3g} %", relative=tol.relative * m)
+    return Tolerance(f"{tol.text} ×{m:g}" if m != 1 else tol.text, absolute_si=(tol.absolute_si or 0.0) * m)
+
+
+def tune(spec: LabSpec, submissions: list) -> TuneReport:
+    """Sweep every step's tolerance and the accuracy bands over ``submissions`` (normalised)."""
+    base = [grade_submission(sub, spec) for sub in submissions]
+    pass_pct = 100.0 * spec.pass_fraction
+    fast = replace(spec, observations={k: replace(v, sigma_si=None) for k, v in spec.observations.items()},
+                   constant_sigma={}, accuracy=None)  # steps only: no propagation needed
+
+    def summarise(scores, maxes):
+        pcts = [100.0 * s / m for s, m in zip(scores, maxes) if m]
+        return (statistics.fmean(pcts) if pcts else 0.0), sum(p >= pass_pct - 1e-9 for p in pcts)
+
+    steps = {}
+    for key, rule in spec.steps.items():
+        rows = []
+        for m in MULTIPLIERS:
+            tried = replace(fast, steps={**fast.steps, key: replace(rule, tolerance=_scaled(rule.tolerance, m))})
+            verdicts, scores, maxes = [], [], []
+            for sub, rec in zip(submissions, base):
+                new = grade_submission(sub, tried)
+                new_steps = {s["id"]: s for s in new["steps"]}
+                old_points = sum(s["points"] for s in rec["steps"])
+                new_points = sum(s["points"] for s in new["steps"])
+                scores.append(rec["score"] - old_points + new_points)
+                maxes.append(rec["max_score"])
+                if key in new_steps:
+                    verdicts.append(new_steps[key]["verdict"])
+            mean, n_pass = summarise(scores, maxes)
+            rows.append(SweepRow(m, _scaled(rule.tolerance, m).text, verdicts.count("correct"),
+                                 verdicts.count("carried"), verdicts.count("wrong"), mean, n_pass))
+        steps[key] = rows
+
+    accuracy_rows = []
+    if spec.accuracy is not None:
+        acc = spec.accuracy
+        for m in MULTIPLIERS:
+            rule = AccuracyRule(acc.points, acc.full_within * m, acc.zero_beyond * m, acc.kind, acc.text)
+            scores, maxes, within = [], [], 0
+            for rec in base:
+                score = rec["score"] or 0.0
+                for a in (rec.get("accuracy") or {}).values():
+                    if a["recomputed"] is None or a["reference"] is None:
+                        continue
+                    frac = rule.score_fraction(a["recomputed"], a["reference"], a.get("sigma"))
+                    score += a["max_points"] * frac - a["points"]
+                    within += frac == 1.0
+                scores.append(score)
+                maxes.append(rec["max_score"])
+            mean, n_pass = summarise(scores, maxes)
+            if acc.kind in ("relative", "sigma"):
+                unit, scale = ("%", 100) if acc.kind == "relative" else ("sigma", 1)
+                text = f"{acc.full_within * m * scale:.3g} / {acc.zero_beyond * m * scale:.3g} {unit}"
+            else:  # absolute bands, in the result's own display unit
+                first = next(iter(spec.steps.values()))
+                result = spec.steps[spec.step_key(first.method.id, first.method.result_step)]
+                text = (f"{format_value(acc.full_within * m, result.unit, result.step.kind, 3)} / "
+                        f"{format_value(acc.zero_beyond * m, result.unit, result.step.kind, 3)}")
+            accuracy_rows.append(SweepRow(m, text, within, 0, 0, mean, n_pass))
+
+    suggestion = None
+    rel_sigmas = [100.0 * a["sigma"] / abs(a["recomputed"]) for rec in base for a in (rec.get("accuracy") or {}).values()
+                  if a.get("sigma") and a.get("recomputed")]
+    if rel_sigmas:
+        med = statistics.median(rel_sigmas)
+        suggestion = {"median_sigma_pct": med, "full_within": f"{2 * med:.2g} %", "zero_beyond": f"{4 * med:.2g} %"}
+    return TuneReport(len(submissions), steps, accuracy_rows, suggestion)
+
+
+def tuned_spec_text(spec_text: str, full_within: str, zero_beyond: str) -> str:
+    """The spec's text with the [accuracy] bands replaced; everything else kept as written."""
+    out, in_accuracy = [], False
+    for line in spec_text.splitlines(keepends=True):
+        stripped = line.strip()
+        if stripped.startswith("["):
+            in_accuracy = stripped == "[accuracy]"
+        if in_accuracy and re.match(r"full_within\s*=", stripped):
+            line = f'full_within = "{full_within}"  # tuned by labcheck tune\n'
+        elif in_accuracy and re.match(r"zero_beyond\s*=", stripped):
+            line = f'zero_beyond = "{zero_beyond}"  # tuned by labcheck tune\n'
+        out.append(line)
+    return "".join(out)

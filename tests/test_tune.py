@@ -1,0 +1,44 @@
+"""labcheck tune: the sweep moves exactly the values it should, and writes only when asked."""
+
+import pytest
+
+from labcheck.cli import main
+from labcheck.ingest import read_rows
+from labcheck.submission import normalise
+from labcheck.tune import tune
+
+from conftest import csv_bytes, good_dip_rows
+
+
+def off_by(rows, key, factor):
+    return [r if r[1] != key else (r[0], r[1], f"{float(r[2]) * factor:.6g}", r[3]) for r in rows]
+
+
+def test_sweep_moves_a_step_at_the_right_multipliers(spec):
+    # dip.radius_apparent 0.3 % off; current tolerance 0.5 %: wrong at ×¼ and ×½ (0.125 %, 0.25 %),
+    # correct from ×1 (0.5 %) on.  A second, exact submission is correct throughout.
+    subs = [normalise(read_rows(csv_bytes(rows), f"{i}.csv"), spec) for i, rows in
+            enumerate([off_by(good_dip_rows(sid="a"), "dip.radius_apparent", 1.003), good_dip_rows(sid="b")])]
+    report = tune(spec, subs)
+    rows = {r.multiplier: r for r in report.steps["dip.radius_apparent"]}
+    assert (rows[0.25].correct, rows[0.5].correct, rows[1.0].correct, rows[4.0].correct) == (1, 1, 2, 2)
+    assert rows[0.25].wrong == 1 and rows[1.0].wrong == 0
+    assert rows[0.25].mean_percent < rows[1.0].mean_percent
+
+
+def test_tune_writes_only_when_asked(tmp_path, capsys, spec):
+    from pathlib import Path
+
+    (tmp_path / "in").mkdir()
+    for sid in ("a", "b", "c"):
+        (tmp_path / "in" / f"{sid}.csv").write_bytes(csv_bytes(good_dip_rows(sid=sid)))
+    before = Path(spec.path).read_bytes()
+    assert main(["tune", "horizon_dip", str(tmp_path / "in")]) == 0
+    out = capsys.readouterr().out
+    assert "<- current" in out and "Suggested bands" in out
+    assert Path(spec.path).read_bytes() == before
+    tuned = tmp_path / "tuned.toml"
+    assert main(["tune", "horizon_dip", str(tmp_path / "in"), "--write", str(tuned)]) == 0
+    text = tuned.read_text(encoding="utf-8")
+    assert "# tuned by labcheck tune" in text and 'full_within = "2 sigma"' not in text
+    assert main(["spec", "check", str(tuned)]) == 0
