@@ -209,9 +209,55 @@ def cmd_demo(args) -> int:
         run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress)
         _print_summary(run, spec, folder / "graded")
         worst = max(worst, run.exit_code)
+        if section.lab == "horizon_dip":
+            _demo_tune_and_diff(spec, zip_path, roster, folder)
     print(f"\nStart with {out / SECTIONS[0].folder / 'graded' / 'section.html'}")
     print("(the demo plants unreadable files and students with no submission: exit status 1 is expected)")
     return worst
+
+
+def format_tune_report(report, spec: LabSpec) -> str:
+    """The tune report as text (for the terminal or a file)."""
+    out = [f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}",
+           "Each row: tolerance, then correct / carried / wrong for the step, mean score, passes. Nothing is changed."]
+    for key, rows in report.steps.items():
+        out.append(f"\n  {key}")
+        for r in rows:
+            mark = "  <- current" if r.multiplier == 1 else ""
+            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
+                       f"   mean {r.mean_percent:5.1f} %   pass {r.n_pass}/{report.n}{mark}")
+    if report.accuracy:
+        out.append(f"\n  accuracy ({spec.accuracy.text})")
+        for r in report.accuracy:
+            mark = "  <- current" if r.multiplier == 1 else ""
+            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
+                       f"   pass {r.n_pass}/{report.n}{mark}")
+    if report.suggestion:
+        sg = report.suggestion
+        out.append(f"\n  The section's results carry a median propagated uncertainty of {sg['median_sigma_pct']:.2g} % "
+                   f"(1 sigma). Suggested bands: full_within = \"{sg['full_within']}\", zero_beyond = \"{sg['zero_beyond']}\" "
+                   "(2 and 4 sigma), or write them in sigmas: \"2 sigma\", \"4 sigma\".")
+    return "\n".join(out) + "\n"
+
+
+def format_diff(d, old_name: str, new_name: str) -> str:
+    """The diff of two runs as text."""
+    out = []
+    if d.old_lab != d.new_lab:
+        out.append(f"warning: the runs grade different labs ({d.old_lab} and {d.new_lab})")
+    out.append(f"{len(d.changed)} student(s) changed, {d.unchanged} unchanged"
+               + ("; the lab spec differs between the runs" if d.spec_changed else "; same lab spec"))
+    for ch in d.changed:
+        delta = f"{ch.delta:+g}" if ch.delta is not None else f"{ch.old_status} -> {ch.new_status}"
+        old = "—" if ch.old_score is None else f"{ch.old_score:g}"
+        new = "—" if ch.new_score is None else f"{ch.new_score:g}"
+        out.append(f"  {ch.key:<16} {ch.name:<24} {old:>7} -> {new:<7} ({delta})")
+        for st in ch.steps:
+            verdicts = f"{st['old_verdict']} -> {st['new_verdict']}" if st["old_verdict"] or st["new_verdict"] else ""
+            out.append(f"      {st['id']:<36} {st['old_points']} -> {st['new_points']} points  {verdicts}")
+    out += [f"  {key}: only in {old_name}" for key in d.only_old]
+    out += [f"  {key}: only in {new_name}" for key in d.only_new]
+    return "\n".join(out) + "\n"
 
 
 def cmd_tune(args) -> int:
@@ -225,25 +271,7 @@ def cmd_tune(args) -> int:
     if not subs:
         raise InputError("no readable submissions in the inputs")
     report = tune(spec, subs)
-    print(f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}")
-    print("Each row: tolerance, then correct / carried / wrong for the step, mean score, passes. Nothing is changed.")
-    for key, rows in report.steps.items():
-        print(f"\n  {key}")
-        for r in rows:
-            mark = "  <- current" if r.multiplier == 1 else ""
-            print(f"    ×{r.multiplier:<5g} {r.tolerance:<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
-                  f"   mean {r.mean_percent:5.1f} %   pass {r.n_pass}/{report.n}{mark}")
-    if report.accuracy:
-        print(f"\n  accuracy ({spec.accuracy.text})")
-        for r in report.accuracy:
-            mark = "  <- current" if r.multiplier == 1 else ""
-            print(f"    ×{r.multiplier:<5g} {r.tolerance:<22} full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
-                  f"   pass {r.n_pass}/{report.n}{mark}")
-    if report.suggestion:
-        sg = report.suggestion
-        print(f"\n  The section's results carry a median propagated uncertainty of {sg['median_sigma_pct']:.2g} % "
-              f"(1 sigma). Suggested bands: full_within = \"{sg['full_within']}\", zero_beyond = \"{sg['zero_beyond']}\" "
-              "(2 and 4 sigma), or write them in sigmas: \"2 sigma\", \"4 sigma\".")
+    print(format_tune_report(report, spec), end="")
     if args.write:
         if not report.suggestion:
             raise InputError("no propagated uncertainty to suggest bands from: give the instruments' sigma in the spec")
@@ -263,24 +291,32 @@ def cmd_diff(args) -> int:
 
     old, new = load_results(args.old), load_results(args.new)
     d = diff_runs(old, new)
-    c = _Colour(sys.stdout)
-    if d.old_lab != d.new_lab:
-        print(c(f"warning: the runs grade different labs ({d.old_lab} and {d.new_lab})", "33"))
-    print(f"{len(d.changed)} student(s) changed, {d.unchanged} unchanged"
-          + ("; the lab spec differs between the runs" if d.spec_changed else "; same lab spec"))
-    for ch in d.changed:
-        delta = f"{ch.delta:+g}" if ch.delta is not None else f"{ch.old_status} -> {ch.new_status}"
-        old = "—" if ch.old_score is None else f"{ch.old_score:g}"
-        new = "—" if ch.new_score is None else f"{ch.new_score:g}"
-        print(f"  {ch.key:<16} {ch.name:<24} {old:>7} -> {new:<7} ({delta})")
-        for st in ch.steps:
-            verdicts = f"{st['old_verdict']} -> {st['new_verdict']}" if st["old_verdict"] or st["new_verdict"] else ""
-            print(f"      {st['id']:<36} {st['old_points']} -> {st['new_points']} points  {verdicts}")
-    for key in d.only_old:
-        print(f"  {key}: only in {args.old}")
-    for key in d.only_new:
-        print(f"  {key}: only in {args.new}")
+    print(format_diff(d, args.old, args.new), end="")
     return 0
+
+
+def _demo_tune_and_diff(spec: LabSpec, zip_path: Path, roster: Path, folder: Path) -> None:
+    """Show tune and diff on the dip section: a report, a tuned spec copy, a regrade, the diff."""
+    from .compare import diff_runs, load_results
+    from .ingest import RawSubmission, iter_submissions
+    from .submission import normalise
+    from .tune import tune, tuned_spec_text
+
+    subs = [normalise(i, spec) for i in iter_submissions([zip_path]) if isinstance(i, RawSubmission) and not i.error]
+    report = tune(spec, subs)
+    (folder / "tune_report.txt").write_text(format_tune_report(report, spec), encoding="utf-8")
+    if not report.suggestion:
+        return
+    tuned = folder / "horizon_dip_tuned.toml"
+    tuned.write_text(tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), report.suggestion["full_within"],
+                                     report.suggestion["zero_beyond"]), encoding="utf-8")
+    tuned_spec = load_spec(tuned)
+    grade_section(tuned_spec, [zip_path], folder / "graded-tuned", roster, force=True)
+    d = diff_runs(load_results(folder / "graded"), load_results(folder / "graded-tuned"))
+    (folder / "diff_report.txt").write_text(format_diff(d, "graded", "graded-tuned"), encoding="utf-8")
+    print(f"  tune: suggested accuracy bands {report.suggestion['full_within']} / {report.suggestion['zero_beyond']} "
+          f"(report: {folder / 'tune_report.txt'}); regraded with them into {folder / 'graded-tuned'}")
+    print(f"  diff: {len(d.changed)} student(s) would change ({folder / 'diff_report.txt'})")
 
 
 def build_parser() -> argparse.ArgumentParser:

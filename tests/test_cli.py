@@ -76,6 +76,14 @@ def test_demo_end_to_end(demo, section):
     assert members == accounted
 
 
+def test_demo_shows_tune_and_diff(demo):
+    out, _ = demo
+    folder = out / "horizon_dip"
+    assert "<- current" in (folder / "tune_report.txt").read_text(encoding="utf-8")
+    assert (folder / "diff_report.txt").read_text(encoding="utf-8").split()[1] == "student(s)"
+    assert (folder / "graded-tuned" / "results.json").exists()
+
+
 def test_demo_sheets_carry_safety_and_escape_student_text(demo):
     out, _ = demo
     html = (out / "horizon_dip" / "graded" / "feedback" / "b2150-005.html").read_text(encoding="utf-8")
