@@ -17,7 +17,7 @@ import numpy as np
 from geographiclib.geodesic import Geodesic
 
 from ..reductions import baseline as bl
-from .common import DemoGroup, dms, num, person, sig
+from .common import DemoGroup, dms, identity_rows, num, person, sig
 
 __all__ = [
     "taped_section", "TAPED_PLANTED", "TAPED_MISSING",
@@ -71,9 +71,7 @@ def taped_section() -> list[DemoGroup]:
         sid = f"c2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g - 1, 7), "xlsx" if g % 5 == 0 else "csv")
         rows = grp.rows
-        rows += [("identity", "student_id", sid, "", ""), ("identity", "name", grp.name, "", ""),
-                 ("identity", "group", f"C{g:02d}", "", ""), ("identity", "date", f"2026-09-{15 + g % 3:02d}", "", ""),
-                 ("identity", "site", "Harrowby calibration baseline", "", "")]
+        rows += identity_rows(sid, grp.name, f"C{g:02d}", f"2026-09-{15 + g % 3:02d}", "Harrowby calibration baseline")
         us = g == TAPED_US_GROUP
         tape = US_TAPE if us else METRIC_TAPE
         suspended = g % 2 == 1
@@ -193,8 +191,7 @@ def odometer_section() -> list[DemoGroup]:
         sid = f"e2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g + 3, 13), "csv")
         rows = grp.rows
-        rows += [("identity", "student_id", sid, "", ""), ("identity", "name", grp.name, "", ""),
-                 ("identity", "group", f"E{g:02d}", "", ""), ("identity", "site", "Harrowby shore road", "", "")]
+        rows += identity_rows(sid, grp.name, f"E{g:02d}", "", "Harrowby shore road")
         miles = g == 7
         true_factor = float(rng.uniform(0.965, 1.035))  # the vehicle's odometer error
         unit = "mi" if miles else "km"
@@ -253,8 +250,7 @@ def radius_section() -> list[DemoGroup]:
         sid = f"d2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g - 1, 19), "xlsx" if g % 4 == 0 else "csv")
         rows = grp.rows
-        rows += [("identity", "student_id", sid, "", ""), ("identity", "name", grp.name, "", ""),
-                 ("identity", "group", f"D{g:02d}", "", ""), ("identity", "site", f"{a} to {b}", "", "")]
+        rows += identity_rows(sid, grp.name, f"D{g:02d}", "", f"{a} to {b}")
         (lat1, lon1), (lat2, lon2) = STATIONS[a], STATIONS[b]
         s12 = geod.Inverse(lat1, lon1, lat2, lon2)["s12"]
         measured_km = round(s12 * (1 + float(rng.normal(0, 0.0015))) / 1000, 3)

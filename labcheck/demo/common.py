@@ -7,7 +7,7 @@ import io
 import math
 from dataclasses import dataclass, field
 
-__all__ = ["DemoGroup", "FIRST", "LAST", "person", "sig", "num", "dms", "csv_bytes", "xlsx_bytes"]
+__all__ = ["identity_rows", "DemoGroup", "FIRST", "LAST", "person", "sig", "num", "dms", "csv_bytes", "xlsx_bytes"]
 
 FIRST = ["Amara", "Bexley", "Corin", "Dalia", "Emrys", "Fenna", "Galen", "Hester", "Idris", "Juno",
          "Kestrel", "Linnea", "Marek", "Noor", "Orla", "Piet", "Quilla", "Rafferty", "Sabine", "Tobiah",
@@ -30,6 +30,12 @@ class DemoGroup:
     name: str
     fmt: str  # "csv" or "xlsx"
     rows: list[tuple[str, str, str, str, str]] = field(default_factory=list)
+
+
+def identity_rows(sid: str, name: str, group: str, date: str, site: str) -> list[tuple[str, str, str, str, str]]:
+    """The identity rows of a demo submission (empty fields are left out)."""
+    fields = (("student_id", sid), ("name", name), ("group", group), ("date", date), ("site", site))
+    return [("identity", key, value, "", "") for key, value in fields if value]
 
 
 def sig(x: float, digits: int = 4) -> float:

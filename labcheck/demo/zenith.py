@@ -19,7 +19,7 @@ import numpy as np
 
 from ..reductions import sun
 from ..reductions import zenith as zn
-from .common import DemoGroup, num, person
+from .common import DemoGroup, identity_rows, num, person
 
 __all__ = ["gnomon_section", "GNOMON_PLANTED", "GNOMON_NOTES", "sextant_section", "SEXTANT_PLANTED",
            "arc_section", "ARC_PLANTED", "theodolite_section", "THEODOLITE_PLANTED"]
@@ -29,11 +29,6 @@ ZONE = timezone(timedelta(hours=-2))
 SITE = (57.81234, -33.61420)  # Harrowby Trig
 SOUTH_SITE = (53.22870, -33.48925)  # Fennick Point
 K_SPEC = 0.13
-
-
-def _identity(rows, sid, name, group, date, site):
-    rows += [("identity", "student_id", sid, "", ""), ("identity", "name", name, "", ""),
-             ("identity", "group", group, "", ""), ("identity", "date", date, "", ""), ("identity", "site", site, "", "")]
 
 
 def _deg(x):
@@ -107,7 +102,7 @@ def gnomon_section() -> list[DemoGroup]:
             when_local = datetime(2026, 7, 26, 12, 0, 0, tzinfo=ZONE)
         else:
             when_local = _observe_time(day, SITE[1], float(rng.uniform(-6, 6))).astimezone(ZONE)
-        _identity(grp.rows, sid, grp.name, f"F{g:02d}", when_local.date().isoformat(), "Harrowby Trig")
+        grp.rows += identity_rows(sid, grp.name, f"F{g:02d}", when_local.date().isoformat(), "Harrowby Trig")
         mistakes = {GNOMON_PLANTED[g][0]} if g in GNOMON_PLANTED else set()
         _gnomon_rows(grp.rows, "", SITE[0], SITE[1], when_local, rng, mistakes)
         groups.append(grp)
@@ -141,7 +136,7 @@ def sextant_section() -> list[DemoGroup]:
         day = datetime(2026, 9, 10 + g, tzinfo=timezone.utc)
         when_local = _observe_time(day, SITE[1], float(rng.uniform(-3, 3))).astimezone(ZONE)
         when = when_local.astimezone(timezone.utc)
-        _identity(grp.rows, sid, grp.name, f"G{g:02d}", when_local.date().isoformat(),
+        grp.rows += identity_rows(sid, grp.name, f"G{g:02d}", when_local.date().isoformat(),
                   "Harrowby Trig (artificial horizon)" if artificial else "Harrowby harbour wall")
         rows = grp.rows
         T, P = round(float(rng.uniform(8, 18)), 0), round(float(rng.uniform(995, 1025)), 0)
@@ -213,7 +208,7 @@ def arc_section() -> list[DemoGroup]:
         sid = f"h2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g + 14, 11), "csv")
         day = datetime(2026, 9, 20 + g, tzinfo=timezone.utc)
-        _identity(grp.rows, sid, grp.name, f"H{g:02d}", day.date().isoformat(), "Harrowby Trig and Fennick Point")
+        grp.rows += identity_rows(sid, grp.name, f"H{g:02d}", day.date().isoformat(), "Harrowby Trig and Fennick Point")
         phis = []
         for prefix, (lat, lon) in (("site1_", SITE), ("site2_", SOUTH_SITE)):
             when_local = _observe_time(day, lon, float(rng.uniform(-5, 5))).astimezone(ZONE)
@@ -249,7 +244,7 @@ def theodolite_section() -> list[DemoGroup]:
     for g in range(1, 9):
         sid = f"i2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g + 1, 17), "csv")
-        _identity(grp.rows, sid, grp.name, f"I{g:02d}", f"2026-10-{5 + g:02d}", "Harrowby Bluff pillars P1–P4")
+        grp.rows += identity_rows(sid, grp.name, f"I{g:02d}", f"2026-10-{5 + g:02d}", "Harrowby Bluff pillars P1–P4")
         rows = grp.rows
         mistake = THEODOLITE_PLANTED.get(g, (None,))[0]
         # Face pairs: FL = z + i, FR = 360° − z + i, read to 1".
