@@ -57,10 +57,17 @@ def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | 
     """
     missing_obs = missing_obs or {}
     chain = Chain({}, {}, {})
+    with np.errstate(all="ignore"):  # once per chain: a step's NaN or inf becomes "no finite value"
+        _fill(chain, method, obs, consts, missing_obs)
+    return chain
+
+
+def _fill(chain: Chain, method: Method, obs: dict, consts: dict, missing_obs: dict) -> None:
+    step_ids = method.step_ids
     for step in method.steps:
         inputs, reasons = {}, []
         for name in step.inputs:
-            if name in method.step_ids:
+            if name in step_ids:
                 if chain.expected.get(name) is not None:
                     inputs[name] = chain.expected[name]
                 else:
@@ -80,4 +87,3 @@ def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | 
         chain.inputs[step.id] = inputs
         if reasons:
             chain.missing_reasons[step.id] = tuple(dict.fromkeys(reasons))
-    return chain

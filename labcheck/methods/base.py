@@ -15,6 +15,7 @@ are chosen by the lab spec at the edges.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Callable
 
 __all__ = ["Alternative", "Reference", "Observation", "Constant", "Step", "Variant", "Method", "formula_variant", "input_variant"]
@@ -204,9 +205,10 @@ class Method:
                 return o
         raise KeyError(name)
 
-    @property
-    def step_ids(self) -> tuple[str, ...]:
-        return tuple(s.id for s in self.steps)
+    @cached_property
+    def step_ids(self) -> frozenset[str]:
+        """The ids of the method's steps (a set: used for membership on every evaluation)."""
+        return frozenset(s.id for s in self.steps)
 
     def constant(self, name: str) -> Constant:
         for c in self.constants:
