@@ -497,6 +497,44 @@ def _pct_text(p: float) -> str:
     return f"{p:.1f} %" if p >= 1 else f"{p:.2g} %"
 
 
+def _reported_sigmas(run: "_MethodRun", sub: Submission) -> list[dict]:
+    """Grade the uncertainties students report (``<step>_sigma``) against the propagated ones."""
+    spec, method = run.spec, run.method
+    out = []
+    for key in spec.reported_sigma:
+        rule = spec.steps[key]
+        if rule.method.id != method.id:
+            continue
+        item = f"{key}_sigma"
+        rep = sub.results.get(item)
+        prop = run.sigmas.get(rule.step.id)
+        f = spec.sigma_within_factor
+        dec = display_decimals(rule, _display(prop, rule.unit, rule.step.kind))
+        if rep is None:
+            verdict, text = "missing", "Your uncertainty for this step was not reported."
+        elif not prop:
+            verdict, text = "missing", "No uncertainty could be propagated for this step to compare yours with."
+        else:
+            ratio = abs(rep.si) / prop
+            ok = 1 / f <= ratio <= f
+            verdict = "correct" if ok else "wrong"
+            text = (f"Your uncertainty is {ratio:.2g} times the one propagated from the instruments' standard "
+                    f"deviations ({format_step_value(prop, rule, dec)}); the lab accepts a factor of {f:g} either way."
+                    + ("" if ok else " Propagate each reading's uncertainty through the formula, and remember that "
+                                     "the mean of n readings has σ/√n."))
+        out.append({
+            "id": item, "method": method.id, "step": f"{rule.step.id}_sigma", "label": f"your uncertainty of the {rule.step.label}",
+            "unit": rule.unit, "formula": "σ² = Σ (∂f/∂xᵢ · σᵢ)²", "source": "first-order propagation (GUM, JCGM 100:2008, §5.1)",
+            "inputs": [], "expected": _display(prop, rule.unit, rule.step.kind) if prop else None,
+            "reported": _display(abs(rep.si), rule.unit, rule.step.kind) if rep else None,
+            "reported_as": f"{rep.text} {rep.unit}".strip() if rep else None, "reported_row": rep.row if rep else None,
+            "carried_expected": None, "tolerance": f"within a factor {f:g}", "sigma": None, "decimals": dec,
+            "verdict": verdict, "points": spec.reported_sigma_points if verdict == "correct" else 0.0,
+            "max_points": spec.reported_sigma_points, "diagnosis": None, "explanation": text,
+        })
+    return out
+
+
 def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expected: dict) -> list[dict]:
     """Field-data quality: checks (scored) and notes (not scored).
 
@@ -630,6 +668,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "diagnosis": diagnosis,
             "explanation": explanation,
         })
+    own_sigma = _reported_sigmas(run, sub)
     accuracy, reference_notes = _accuracy(run, sub)
     quality = _quality(method, spec, used, obs_notes + const_notes, chain.expected) + reference_notes
     if method.notes is not None:
@@ -637,7 +676,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
         for note_id, ok, text in method.notes(obs, consts, written):
             quality.append({"method": method.id, "observation": None, "ok": ok, "text": text, "id": note_id,
                             "check": note_id in _CHECK_NOTES})
-    return records, accuracy, quality, _observations_shown(method, spec, obs, used)
+    return records + own_sigma, accuracy, quality, _observations_shown(method, spec, obs, used)
 
 
 def _attempted(method: Method, sub: Submission, spec: LabSpec) -> bool:

@@ -67,6 +67,7 @@ def _jsonable(value):
 def gradebook_columns(spec: LabSpec) -> list[str]:
     cols = ["student_id", "name", "group", "submission", "status", "score", "max_score", "percent"]
     cols += [f"points:{key}" for key in spec.steps]
+    cols += [f"points:{key}_sigma" for key in spec.reported_sigma]
     cols += [f"accuracy:{m.id}" for m in spec.methods]
     cols += ["flags", "error"]
     return cols
@@ -89,6 +90,7 @@ def gradebook_row(record: dict, spec: LabSpec) -> list:
         percent,
     ]
     row += [points.get(key) for key in spec.steps]
+    row += [points.get(f"{key}_sigma") for key in spec.reported_sigma]
     row += [acc[m.id]["points"] if m.id in acc else None for m in spec.methods]
     row += [len(record.get("flags", [])), neutralise_cell(record.get("error") or "")]
     return row

@@ -149,6 +149,9 @@ class LabSpec:
     constant_sigma: dict[str, float] = field(default_factory=dict)  # SI
     quality: QualityRule = field(default_factory=QualityRule)
     shared_items: frozenset = frozenset()  # observation items groups share by design (integrity leads skip them)
+    reported_sigma: tuple = ()  # step keys whose uncertainty students report (as "<key>_sigma")
+    reported_sigma_points: float = 1.0
+    sigma_within_factor: float = 2.0
 
     @property
     def observation_sigma(self) -> dict[str, float]:
@@ -423,7 +426,20 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add("accuracy", f"the methods' results are of different kinds ({', '.join(sorted(kinds))}); one accuracy rule cannot judge them")
         accuracy = _parse_accuracy(acc_raw, c, kinds.pop() if len(kinds) == 1 else "length")
 
-    unc_raw = c.get(raw, "uncertainty", "", dict, required=False, default={}) or {}
+    unc_raw = dict(c.get(raw, "uncertainty", "", dict, required=False, default={}) or {})
+    reported = unc_raw.pop("reported", [])
+    reported_points = unc_raw.pop("reported_points", 1)
+    within_factor = unc_raw.pop("within_factor", 2.0)
+    if not isinstance(reported, list) or any(k not in expected_keys for k in reported if isinstance(k, str)) \
+            or not all(isinstance(k, str) for k in reported):
+        c.add("uncertainty.reported", f"expected a list of step keys from: {', '.join(expected_keys)}; got {reported!r}")
+        reported = []
+    if not isinstance(reported_points, (int, float)) or isinstance(reported_points, bool) or reported_points < 0:
+        c.add("uncertainty.reported_points", f"expected 0 or more points, got {reported_points!r}")
+        reported_points = 0
+    if not isinstance(within_factor, (int, float)) or isinstance(within_factor, bool) or within_factor <= 1:
+        c.add("uncertainty.within_factor", f"expected a number above 1, got {within_factor!r}")
+        within_factor = 2.0
     constant_sigma: dict[str, float] = {}
     for name, text in unc_raw.items():
         if name not in declared:
@@ -435,6 +451,8 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                 c.add(f"uncertainty.{name}", f"expected a positive standard deviation, got {text!r}")
         except UnitError as exc:
             c.add(f"uncertainty.{name}", str(exc))
+    if reported and not (constant_sigma or any(isinstance(t, dict) and "sigma" in t for t in obs_raw.values())):
+        c.add("uncertainty.reported", "grading reported uncertainties needs the instruments' sigma values")
     if accuracy is not None and accuracy.kind == "sigma" and not (constant_sigma or any(
             isinstance(t, dict) and "sigma" in t for t in obs_raw.values())):
         c.add("accuracy", "bands in sigma need standard deviations: give [observations.<name>] sigma for the instruments")
@@ -497,6 +515,9 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         constant_sigma=constant_sigma,
         quality=quality_rule,
         shared_items=frozenset(x for x in shared if isinstance(x, str)),
+        reported_sigma=tuple(reported),
+        reported_sigma_points=float(reported_points),
+        sigma_within_factor=float(within_factor),
     )
 
 

@@ -109,6 +109,8 @@ def result_keys(spec: LabSpec) -> dict[str, str]:
     for rule in spec.steps.values():
         keys[rule.key] = rule.key
         keys[f"{rule.method.id}.{rule.step.id}"] = rule.key
+        if rule.key in spec.reported_sigma:  # a student's own uncertainty of this step
+            keys[f"{rule.key}_sigma"] = f"{rule.key}_sigma"
     return keys
 
 
@@ -211,7 +213,7 @@ def _result(sub: Submission, row: Row, item: str, res_keys, ambiguous, spec: Lab
     if not row.value:
         return
     key = res_keys[item]
-    rule = spec.steps[key]
+    rule = spec.steps[key[: -len("_sigma")] if key.endswith("_sigma") and key not in spec.steps else key]
     unit = _unit_for(row, rule.step.kind, rule.unit)
     try:
         si = float(parse_value(row.value, unit, rule.step.kind))

@@ -52,6 +52,9 @@ def template_rows(spec: LabSpec) -> list[tuple[str, str, str, str, str, str]]:
     for key, rule in spec.steps.items():
         unit = "" if rule.unit == "1" else rule.unit
         rows.append(("result", key, "", unit, "", f"{rule.step.label}: {rule.step.formula}"))
+        if key in spec.reported_sigma:
+            rows.append(("result", f"{key}_sigma", "", unit, "",
+                         f"your uncertainty (one standard deviation) of the {rule.step.label}, from your instruments"))
     return rows
 
 

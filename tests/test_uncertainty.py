@@ -74,3 +74,20 @@ def test_sigma_accuracy_rule_in_a_spec(spec):
     expected_fraction = 1.0 if acc["sigmas_off"] <= 2 else max(0.0, (4 - acc["sigmas_off"]) / 2)
     assert acc["points"] == pytest.approx(4 * expected_fraction, abs=1e-3)
     assert "standard deviation" in acc["explanation"]
+
+
+@pytest.mark.parametrize("factor, verdict", [(1.5, "correct"), (0.6, "correct"), (3.0, "wrong"), (None, "missing")])
+def test_reported_uncertainty_is_judged_against_the_propagated_one(spec, factor, verdict):
+    from dataclasses import replace
+
+    from conftest import good_dip_rows, grade_rows
+
+    s2 = replace(spec, reported_sigma=("dip.radius",), reported_sigma_points=2.0, sigma_within_factor=2.0)
+    base = grade_rows(s2, good_dip_rows())
+    prop = next(s for s in base["steps"] if s["id"] == "dip.radius")["sigma"]
+    assert prop and prop > 0
+    rows = good_dip_rows() + ([("result", "dip.radius_sigma", f"{prop * factor:.1f}", "km")] if factor else [])
+    rec = grade_rows(s2, rows)
+    own = next(s for s in rec["steps"] if s["id"] == "dip.radius_sigma")
+    assert own["verdict"] == verdict
+    assert own["points"] == (2.0 if verdict == "correct" else 0.0)
