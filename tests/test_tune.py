@@ -1,6 +1,5 @@
 """labcheck tune: the sweep moves exactly the values it should, and writes only when asked."""
 
-import pytest
 
 from labcheck.cli import main
 from labcheck.ingest import read_rows

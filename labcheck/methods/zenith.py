@@ -9,7 +9,7 @@ Date-times are carried as POSIX seconds (UTC) between steps.
 from __future__ import annotations
 
 import math
-from datetime import datetime, timedelta, timezone
+from datetime import datetime, timezone
 
 import numpy as np
 
