@@ -66,6 +66,18 @@ def _sign_flip_variant(name: str, label: str):
     )
 
 
+def _twice_variant(name: str, label: str):
+    return formula_variant(
+        f"{name}_applied_twice",
+        f"{label} applied twice",
+        f"The {label} was added twice: each correction enters the corrected length once.",
+        lambda measured, c_l, c_t, c_p, c_s, c_h, _n=name: bl.corrected_length(
+            measured, *[(2 * c if key == _n else c) for key, c in zip(
+                ("standardisation", "temperature", "tension", "sag", "slope"), (c_l, c_t, c_p, c_s, c_h))]
+        ),
+    )
+
+
 def _run_steps(run: str) -> tuple[Step, ...]:
     reading, slope = f"{run}_tape_reading", f"{run}_slope_angle"
     temperature, tension, measured = f"{run}_temperature", f"{run}_tension", f"{run}_measured"
@@ -116,6 +128,8 @@ def _run_steps(run: str) -> tuple[Step, ...]:
                               "horizontal distance.",
                               lambda L, c_l, c_t, c_p, c_s, c_h: bl.corrected_length(L, c_l, c_t, c_p, c_s, 0.0)),)
              + tuple(_sign_flip_variant(n, f"{n} correction") for n in
+                     ("standardisation", "temperature", "tension", "sag", "slope"))
+             + tuple(_twice_variant(n, f"{n} correction") for n in
                      ("standardisation", "temperature", "tension", "sag", "slope"))),
     )
 

@@ -88,6 +88,13 @@ _MEAN_RADIUS_REFERENCE = Reference(
     "the Earth's radius of curvature varies by about 1 % with latitude and direction, far less than this method's error.",
 )
 
+_REFRACTION_TWICE = formula_variant(
+    "refraction_applied_twice",
+    "refraction correction applied twice",
+    "The factor (1 − k) was applied twice: R = (1 − k)·R′ once only.",
+    lambda radius_apparent, k: (1.0 - k) ** 2 * radius_apparent,
+)
+
 _RADIUS_ERROR_STEP = Step(
     "radius_error_pct",
     "error against the reference radius",
@@ -125,7 +132,7 @@ _RADIUS_STEP = Step(
     "the same model gives the surveyor's (c + r) = (1 − k)·s²/(2R)",
     ("radius_apparent", "k"),
     hz.radius_corrected_for_refraction,
-    (_REFRACTION_IGNORED, _REFRACTION_INVERTED, _REFRACTION_PLUS),
+    (_REFRACTION_IGNORED, _REFRACTION_INVERTED, _REFRACTION_PLUS, _REFRACTION_TWICE),
     "the Earth's radius after removing the effect of refraction",
 )
 
