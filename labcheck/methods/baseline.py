@@ -52,6 +52,18 @@ def _run_observations(run: str) -> tuple[Observation, ...]:
     )
 
 
+CORRECTIONS = ("standardisation", "temperature", "tension", "sag", "slope")  # in the horizontal-length step's order
+
+
+def _with_correction_scaled(name: str, factor: float):
+    """The horizontal length with one correction multiplied by ``factor`` (−1 wrong sign, 2 twice, 0 left out)."""
+
+    def compute(measured, *corrections):
+        return bl.corrected_length(measured, *[c * factor if key == name else c for key, c in zip(CORRECTIONS, corrections)])
+
+    return compute
+
+
 def _sign_flip_variant(name: str, label: str):
     return formula_variant(
         f"{name}_wrong_sign",
@@ -59,10 +71,7 @@ def _sign_flip_variant(name: str, label: str):
         f"The {label} was subtracted where it is added (or the other way round). Each correction is added with "
         "its own sign: positive when the tape reads short (longer or warmer than standard, pulled harder), "
         "negative for sag and slope.",
-        lambda measured, c_l, c_t, c_p, c_s, c_h, _n=name: bl.corrected_length(
-            measured, *[(-c if key == _n else c) for key, c in zip(
-                ("standardisation", "temperature", "tension", "sag", "slope"), (c_l, c_t, c_p, c_s, c_h))]
-        ),
+        _with_correction_scaled(name, -1.0),
     )
 
 
@@ -71,10 +80,7 @@ def _twice_variant(name: str, label: str):
         f"{name}_applied_twice",
         f"{label} applied twice",
         f"The {label} was added twice: each correction enters the corrected length once.",
-        lambda measured, c_l, c_t, c_p, c_s, c_h, _n=name: bl.corrected_length(
-            measured, *[(2 * c if key == _n else c) for key, c in zip(
-                ("standardisation", "temperature", "tension", "sag", "slope"), (c_l, c_t, c_p, c_s, c_h))]
-        ),
+        _with_correction_scaled(name, 2.0),
     )
 
 
@@ -126,11 +132,9 @@ def _run_steps(run: str) -> tuple[Step, ...]:
              (formula_variant("slope_distance_as_horizontal", "slope distance used as horizontal",
                               "The slope correction was left out: the length along the slope was used as the "
                               "horizontal distance.",
-                              lambda L, c_l, c_t, c_p, c_s, c_h: bl.corrected_length(L, c_l, c_t, c_p, c_s, 0.0)),)
-             + tuple(_sign_flip_variant(n, f"{n} correction") for n in
-                     ("standardisation", "temperature", "tension", "sag", "slope"))
-             + tuple(_twice_variant(n, f"{n} correction") for n in
-                     ("standardisation", "temperature", "tension", "sag", "slope"))),
+                              _with_correction_scaled("slope", 0.0)),)
+             + tuple(_sign_flip_variant(n, f"{n} correction") for n in CORRECTIONS)
+             + tuple(_twice_variant(n, f"{n} correction") for n in CORRECTIONS)),
     )
 
 
