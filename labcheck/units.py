@@ -22,11 +22,9 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass
 
 __all__ = [
     "UnitError",
-    "KINDS",
     "UNITS",
     "canonical_unit",
     "to_si",
@@ -37,7 +35,6 @@ __all__ = [
     "looks_dms",
     "parse_quantity",
     "parse_value",
-    "Quantity",
     "format_value",
 ]
 
@@ -85,9 +82,6 @@ _PER_TEMPERATURE = {"/C": 1.0, "/K": 1.0, "/F": 1.8}
 _RATIO = {"1": 1.0, "%": 0.01, "ppm": 1e-6}
 _PERCENT = {"%": 1.0, "pp": 1.0}
 _TEMPERATURE = ("C", "F", "K")
-
-KINDS = ("length", "angle", "force", "area", "pressure", "force_per_length", "per_temperature", "duration",
-         "temperature", "ratio", "percent", "choice", "datetime", "text")
 
 UNITS: dict[str, dict[str, float]] = {
     "length": _LENGTH,
@@ -272,15 +266,6 @@ def looks_dms(s: str) -> bool:
     return bool(re.search(r"[°º'′’\"″”]", s)) or bool(
         re.fullmatch(r"[+-]?\s*\d+(\.\d*)?([\s:]+\d+(\.\d*)?){1,2}\s*[NSEWnsew]?", s.strip())
     )
-
-
-@dataclass(frozen=True)
-class Quantity:
-    """A parsed value: the number in SI and the unit it was written in."""
-
-    si: float
-    unit: str
-    kind: str
 
 
 def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False) -> float:
