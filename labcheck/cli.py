@@ -132,14 +132,14 @@ def cmd_check(args) -> int:
     print(f"{spec.title}: {p.name}  ({record['name'] or '?'}, {record['student_id'] or 'no student_id'})")
     for f in record["flags"]:
         print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
-    from .render import fmt_fixed
+    from .units import format_fixed
 
     head = f"  {'step':<32} {'recomputed':>14} {'yours':>14}  {'verdict':<16} {'points':>7}"
     print(head)
     print("  " + "-" * (len(head) - 2))
     for s in record["steps"]:
-        exp = fmt_fixed(s["expected"], s["decimals"], s["unit"])
-        rep = fmt_fixed(s["reported"], s["decimals"], s["unit"])
+        exp = format_fixed(s["expected"], s["decimals"], s["unit"])
+        rep = format_fixed(s["reported"], s["decimals"], s["unit"])
         verdict = c(f"{s['verdict']:<16}", colours[s["verdict"]])
         print(f"  {s['id']:<32} {exp:>14} {rep:>14}  {verdict} {s['points']:>3g}/{s['max_points']:<3g}")
         if s["diagnosis"]:

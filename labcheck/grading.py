@@ -37,7 +37,7 @@ from .reductions.stats import grubbs_test, scatter_test
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
-from .units import UNITS, format_value, from_si, parse_quantity, to_si
+from .units import UNITS, format_fixed, format_value, from_si, parse_quantity, to_si
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
@@ -115,9 +115,7 @@ def format_step_value(value_si: float | None, rule: StepRule, decimals: int) -> 
     """A step's value in its display unit with ``decimals`` decimals and the unit."""
     if value_si is None:
         return "—"
-    v = float(from_si(value_si, rule.unit, rule.step.kind))
-    text = f"{v:.{decimals}f}"
-    return f"{text} {rule.unit}" if rule.unit not in ("", "1") else text
+    return format_fixed(float(from_si(value_si, rule.unit, rule.step.kind)), decimals, rule.unit)
 
 
 def _display(value_si: float | None, unit: str, kind: str) -> float | None:

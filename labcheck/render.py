@@ -18,9 +18,9 @@ import pandas as pd
 from . import __version__
 from .resources import templates_dir
 from .spec import LabSpec
-from .units import from_si, to_si
+from .units import format_fixed, from_si, to_si
 
-__all__ = ["Renderer", "fmt_number", "fmt_fixed", "VERDICT_WORDS"]
+__all__ = ["Renderer", "fmt_number", "VERDICT_WORDS"]
 
 VERDICT_WORDS = {
     "correct": "correct",
@@ -45,19 +45,6 @@ def fmt_number(value, digits: int = 5) -> str:
     magnitude = math.floor(math.log10(abs(v)))
     decimals = max(0, digits - 1 - magnitude)
     return f"{v:,.{decimals}f}".replace(",", "\u2009")
-
-
-def fmt_fixed(value, decimals: int, unit: str = "") -> str:
-    """A value with a fixed number of decimals (thin-space thousands) and its unit, or a dash."""
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "—"
-    v = float(value)
-    if v != 0 and abs(v) < 1e-3:  # tiny values (a haversine) read better as 6.703e-07
-        figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
-        text = f"{v:.{min(figures, 12) - 1}e}"
-    else:
-        text = f"{v:,.{decimals}f}".replace(",", "\u2009")
-    return f"{text} {unit}" if unit and unit != "1" else text
 
 
 def _points(p) -> str:
@@ -109,11 +96,11 @@ class Renderer:
                         }
                         for i in s["inputs"]
                     ],
-                    "expected": fmt_fixed(s["expected"], dec, unit),
-                    "sigma": ("± " + fmt_fixed(s["sigma"], dec, unit)) if s.get("sigma") else "",
-                    "reported": fmt_fixed(s["reported"], dec, unit),
+                    "expected": format_fixed(s["expected"], dec, unit),
+                    "sigma": ("± " + format_fixed(s["sigma"], dec, unit)) if s.get("sigma") else "",
+                    "reported": format_fixed(s["reported"], dec, unit),
                     "reported_as": s["reported_as"] or "",
-                    "carried": fmt_fixed(s["carried_expected"], dec, unit) if s["carried_expected"] is not None else "",
+                    "carried": format_fixed(s["carried_expected"], dec, unit) if s["carried_expected"] is not None else "",
                     "tolerance": s["tolerance"],
                     "verdict": s["verdict"],
                     "verdict_words": VERDICT_WORDS[s["verdict"]],

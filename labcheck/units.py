@@ -36,6 +36,7 @@ __all__ = [
     "parse_quantity",
     "parse_value",
     "format_value",
+    "format_fixed",
 ]
 
 
@@ -342,3 +343,21 @@ def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) 
         decimals = max(0, digits - 1 - magnitude)
         text = f"{v:.{decimals}f}"
     return f"{text} {unit}".strip() if unit not in ("1", "") else text
+
+
+def format_fixed(value, decimals: int, unit: str = "") -> str:
+    """A value already in ``unit`` with a fixed number of decimals, thin-space thousands, and the unit.
+
+    Tiny values (a haversine of 6.7e-07) are written in e-notation with the same resolution; a
+    missing or non-finite value is a dash.  The one fixed-decimal formatter of sheets and tables.
+    """
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "—"
+    v = float(value)
+    if v != 0 and abs(v) < 1e-3:
+        figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
+        text = f"{v:.{min(figures, 12) - 1}e}"
+    else:
+        text = f"{v:,.{decimals}f}".replace(",", "\u2009")
+    return f"{text} {unit}" if unit and unit != "1" else text
+
