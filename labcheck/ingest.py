@@ -296,16 +296,13 @@ def _rows_from_table(table: list[list[str]], source: str, limits: Limits) -> Raw
     body = table[start + 1 :]
     if len(body) > limits.max_rows:
         return RawSubmission(source, error=f"too many rows ({len(body)}; the cap is {limits.max_rows})")
+    columns = [index.get(name) for name in COLUMNS]  # part, item, value, unit, note (None: column absent)
     rows = []
     for offset, cells in enumerate(body):
         if not any(c.strip() for c in cells):
             continue
-
-        def cell(name: str) -> str:
-            j = index.get(name)
-            return cells[j].strip() if j is not None and j < len(cells) else ""
-
-        rows.append(Row(start + offset + 2, cell("part").lower(), cell("item"), cell("value"), cell("unit"), cell("note")))
+        part, item, value, unit, note = (cells[j].strip() if j is not None and j < len(cells) else "" for j in columns)
+        rows.append(Row(start + offset + 2, part.lower(), item, value, unit, note))
     return RawSubmission(source, rows=rows)
 
 

@@ -89,14 +89,13 @@ def find_leads(evidence: list[Evidence]) -> list[dict]:
         for t in set(ev.readings):
             index[t].append(i)
     common = max(5, int(0.02 * len(evidence)))
-    pair_counts = Counter()
-    for t, holders in index.items():
+    candidates = set()  # rare shared readings only nominate pairs; the similarity is then exact
+    for holders in index.values():
         if 2 <= len(holders) <= common:
             for a in range(len(holders)):
                 for b in range(a + 1, len(holders)):
-                    pair_counts[(holders[a], holders[b])] += 1
-    # Rare shared readings only nominate candidate pairs; the similarity is then exact over all readings.
-    for (a, b) in pair_counts:
+                    candidates.add((holders[a], holders[b]))
+    for (a, b) in sorted(candidates):
         ea, eb = evidence[a], evidence[b]
         sa, sb = set(ea.readings), set(eb.readings)
         shared = len(sa & sb)
