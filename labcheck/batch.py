@@ -1,16 +1,25 @@
 """Grade a section: every input file, one at a time, into the output folder.
 
-One submission's failure never stops the batch or loses another's result:
-unreadable files become ``unreadable`` records, and an unexpected error while
-grading one file is recorded against that file (with its traceback kept for
-the report) before the next file is read.  Records are streamed to
-``results.json`` and sheets written as they are made, so memory stays flat
-with the size of the section.
+Two promises, kept here:
+
+* **One file never costs another.**  Every stage for one input (read,
+  normalise, grade, render, serialise) runs inside one guard.  An input fault
+  becomes that file's ``unreadable`` record with a plain reason; a fault of
+  labcheck's own becomes that file's ``error`` record, its traceback kept in
+  ``labcheck-errors.log`` for the instructor (never on a sheet); the batch goes on.
+* **Nothing looks complete that is not.**  A run writes into a staging folder
+  beside the output folder and moves it into place only when every output is
+  complete; ``results.json`` ends with a completion record written last.  The
+  previous run (with ``--force``) is replaced only then.  After a kill at any
+  moment the output folder holds the previous complete run or nothing; the
+  next run tidies what a killed one left (see :func:`recover_output`).
 """
 
 from __future__ import annotations
 
+import errno
 import json
+import os
 import re
 import shutil
 import traceback
@@ -19,21 +28,34 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Callable
 
+from . import __version__
 from .grading import grade_submission, missing_record, safe_id, unreadable_record
 from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
 from .ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster
-from .outputs import ResultsWriter, gradebook_row, write_gradebook
+from .labmatch import wrong_lab_message
+from .outputs import ResultsWriter, gradebook_row, record_json, run_time, write_gradebook
 from .render import Renderer
 from .spec import LabSpec
 from .submission import normalise, observation_keys, result_keys
 
-__all__ = ["OutputExistsError", "RunSummary", "grade_section", "count_inputs", "OUTPUT_NAMES"]
+__all__ = ["OutputExistsError", "OutputWriteError", "RunSummary", "grade_section", "count_inputs", "OUTPUT_NAMES",
+           "EXIT_OK", "EXIT_INCOMPLETE", "EXIT_USAGE", "EXIT_LABCHECK_FAILED", "recover_output", "sheet_file_name"]
 
-OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json")
+ERROR_LOG = "labcheck-errors.log"
+OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json", ERROR_LOG)
+
+EXIT_OK = 0  # every file graded, every roster student present
+EXIT_INCOMPLETE = 1  # graded, but some files unreadable (or another lab's) or some students missing
+EXIT_USAGE = 2  # a usage, input or spec error: nothing graded, nothing written
+EXIT_LABCHECK_FAILED = 3  # labcheck itself failed on some file, or could not write its outputs
 
 
 class OutputExistsError(Exception):
     """The output folder holds files and --force was not given."""
+
+
+class OutputWriteError(Exception):
+    """The outputs could not be written (disk full, read-only folder): nothing was replaced."""
 
 
 @dataclass
@@ -42,6 +64,8 @@ class RunSummary:
     n_files: int = 0
     n_graded: int = 0
     n_unreadable: int = 0
+    n_wrong_lab: int = 0
+    n_errors: int = 0
     n_missing: int = 0
     n_skipped: int = 0
     n_unmatched: int = 0
@@ -52,7 +76,14 @@ class RunSummary:
 
     @property
     def exit_code(self) -> int:
-        return 1 if (self.n_unreadable or self.n_missing) else 0
+        if self.n_errors:
+            return EXIT_LABCHECK_FAILED
+        return EXIT_INCOMPLETE if (self.n_unreadable or self.n_missing or self.n_wrong_lab) else EXIT_OK
+
+    def counts(self) -> dict:
+        return {"files": self.n_files, "graded": self.n_graded, "unreadable": self.n_unreadable,
+                "wrong_lab": self.n_wrong_lab, "error": self.n_errors, "missing": self.n_missing,
+                "skipped": self.n_skipped, "unmatched": self.n_unmatched}
 
 
 def count_inputs(inputs: list[str | Path]) -> int:
@@ -64,32 +95,105 @@ def count_inputs(inputs: list[str | Path]) -> int:
             n += sum(1 for f in p.rglob("*") if f.is_file())
         elif p.suffix.lower() == ".zip":
             try:
-                with zipfile.ZipFile(p) as z:
-                    n += sum(1 for i in z.infolist() if not i.is_dir())
-            except (zipfile.BadZipFile, OSError):
+                with open(p, "rb") as fh:
+                    from .ingest import zip_directory_size
+
+                    declared = zip_directory_size(fh)
+                n += declared[0] if declared and declared[0] <= Limits().max_zip_members else 1
+            except OSError:
                 n += 1
         else:
             n += 1
     return n
 
 
-def prepare_output(out_dir: Path, force: bool) -> None:
-    """Create ``out_dir``; refuse a non-empty one unless ``force``, then clear only our own outputs."""
-    if out_dir.exists() and not out_dir.is_dir():
-        raise OutputExistsError(f"{out_dir} exists and is not a folder")
-    if out_dir.exists() and any(out_dir.iterdir()):
-        if not force:
-            raise OutputExistsError(
-                f"{out_dir} is not empty; choose another --out folder or add --force to replace labcheck's outputs there"
-            )
-        for name in OUTPUT_NAMES:
-            target = out_dir / name
-            if target.is_dir() and not target.is_symlink():
-                shutil.rmtree(target)
-            elif target.exists() or target.is_symlink():
-                target.unlink()
-    out_dir.mkdir(parents=True, exist_ok=True)
-    (out_dir / "feedback").mkdir()
+def _staging(out: Path) -> Path:
+    return out.parent / f".{out.name}.labcheck-staging"
+
+
+def _previous(out: Path) -> Path:
+    return out.parent / f".{out.name}.labcheck-previous"
+
+
+def recover_output(out: Path) -> None:
+    """Tidy what a killed run left beside ``out``.
+
+    A staging folder never claimed completion: it is removed.  A folder of
+    the previous run exists only while a commit was under way: if ``out`` is
+    gone it is put back; otherwise the new run is in place and only the
+    instructor's own files still need carrying over.
+    """
+    staging, previous = _staging(out), _previous(out)
+    if staging.exists():
+        shutil.rmtree(staging)
+    if previous.exists():
+        if not out.exists():
+            os.replace(previous, out)
+            return
+        _carry_foreign_files(previous, out)
+        shutil.rmtree(previous)
+
+
+def _carry_foreign_files(src: Path, dst: Path) -> None:
+    """Move files that are not labcheck's outputs (the instructor's own) from ``src`` to ``dst``."""
+    for entry in sorted(src.iterdir()):
+        if entry.name not in OUTPUT_NAMES and not (dst / entry.name).exists():
+            os.replace(entry, dst / entry.name)
+
+
+def _check_output_folder(out: Path, inputs: list[str | Path], force: bool) -> None:
+    if out.exists() and not out.is_dir():
+        raise OutputExistsError(f"{out} exists and is not a folder")
+    resolved = out.resolve()
+    for item in inputs:
+        p = Path(item).resolve()
+        if resolved == p or resolved in p.parents:
+            raise InputError(f"--out {out} is, or holds, the input {item}; choose a separate output folder")
+    if out.exists() and any(out.iterdir()) and not force:
+        raise OutputExistsError(
+            f"{out} is not empty; choose another --out folder or add --force to replace labcheck's outputs there"
+        )
+
+
+def _commit(staging: Path, out: Path) -> None:
+    """Move the finished staging folder into place, replacing the previous run only now."""
+    if out.exists():
+        previous = _previous(out)
+        os.replace(out, previous)
+        os.replace(staging, out)
+        _carry_foreign_files(previous, out)
+        shutil.rmtree(previous)
+    else:
+        os.replace(staging, out)
+    _fsync_dir(out.parent)
+
+
+def _fsync_dir(path: Path) -> None:
+    try:
+        fd = os.open(path, os.O_RDONLY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
+
+
+def _write_text(path: Path, text: str) -> None:
+    with open(path, "w", encoding="utf-8") as fh:
+        fh.write(text)
+        fh.flush()
+        os.fsync(fh.fileno())
+
+
+def _write_failure(folder: Path, exc: OSError) -> OutputWriteError:
+    reasons = {errno.ENOSPC: "the disk is full", errno.EDQUOT: "the disk quota is used up",
+               errno.EROFS: "the folder is on a read-only file system", errno.EACCES: "permission denied",
+               errno.EPERM: "permission denied"}
+    reason = reasons.get(exc.errno, exc.strerror or str(exc))
+    return OutputWriteError(f"cannot write the outputs in {folder}: {reason}; nothing was replaced")
 
 
 def grade_section(
@@ -104,134 +208,213 @@ def grade_section(
 ) -> RunSummary:
     """Grade every submission in ``inputs`` and write the outputs to ``out_dir``.
 
-    Raises :class:`InputError` for a missing input or a bad roster and
-    :class:`OutputExistsError` for a non-empty output folder, before anything
-    is written.
+    Raises :class:`InputError` for a missing or empty input, a bad roster, or an
+    output folder that is an input; :class:`OutputExistsError` for a non-empty
+    output folder without ``force`` (both before anything is written); and
+    :class:`OutputWriteError` when the outputs cannot be written, in which
+    case the previous run, if any, is left as it was.
     """
     out = Path(out_dir)
     for item in inputs:
         if not Path(item).exists():
             raise InputError(f"{item}: no such file or folder")
     roster_rows = read_roster(roster) if roster else None
-    prepare_output(out, force)
-
-    exclude = {out.resolve()}
-    if roster:
-        exclude.add(Path(roster).resolve())
-    renderer = Renderer(spec)
-    obs_keys, res_keys = observation_keys(spec), result_keys(spec)
-    roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
-    run = RunSummary(out)
-    writer = ResultsWriter(out / "results.json", spec)
-    summaries: list[dict] = []
-    skipped: list[dict] = []
-    sheet_links: dict[int, str] = {}
-    used_sheet_names: set[str] = set()
-    seen_ids: dict[str, str] = {}
-
-    evidence = []
-    count = 0
-    for item in iter_submissions(inputs, limits, exclude=exclude):
-        count += 1
-        if progress:
-            progress(count, item.source)
-        if isinstance(item, Skipped):
-            skipped.append({"file": item.source, "reason": item.reason})
-            run.n_skipped += 1
-            continue
-        run.n_files += 1
-        record = _grade_one(item, spec, obs_keys, res_keys, run)
-        if not record["student_id"] and roster_ids:
-            match = _roster_id_in_path(item.source, roster_ids)
-            if match:
-                record["student_id"] = match
-                record["name"] = record["name"] or roster_ids[match]["name"]
-                record["flags"].append({"row": None, "item": "student_id", "value": match,
-                                        "message": "student_id taken from the file's path in the export"})
-        if record["status"] == "graded":
-            _resolve_identity(record, item, roster_ids, seen_ids, run)
-            sheet = _unique_sheet_name(record["student_id"], used_sheet_names)
-            try:
-                html = renderer.sheet(record)
-            except Exception:  # a renderer bug must not lose the grade
-                tb = traceback.format_exc()
-                run.internal_errors.append(f"{item.source}: rendering the sheet failed\n{tb}")
-                record["flags"].append({"row": None, "item": "", "value": "",
-                                        "message": "labcheck could not render this sheet (a bug; reported to the instructor)"})
-                html = None
-            if html is not None:
-                (out / "feedback" / sheet).write_text(html, encoding="utf-8")
-                record["sheet"] = f"feedback/{sheet}"
-                sheet_links[len(summaries)] = record["sheet"]
-            run.n_graded += 1
-            evidence.append(collect_evidence(record, item.rows, spec.shared_items))
-        else:
-            run.n_unreadable += 1
-            record["sheet"] = None
-        writer.add(record)
-        summaries.append(_summary(record, spec))
-
-    if roster_rows is not None:
-        present = {s["student_id"] for s in summaries if s["student_id"]}
-        for r in roster_rows:
-            if r["student_id"] not in present:
-                rec = missing_record(r["student_id"], r["name"])
-                rec["sheet"] = None
-                writer.add(rec)
-                summaries.append(_summary(rec, spec))
-                run.n_missing += 1
-    writer.close({"skipped": skipped})
-
-    write_gradebook(out / "gradebook.csv", spec, [s["gradebook"] for s in summaries])
-    leads = find_leads(evidence)
-    run.n_leads = len(leads)
-    (out / "integrity.json").write_text(json.dumps({"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD,
-                                                    "leads": leads}, indent=1, ensure_ascii=False), encoding="utf-8")
-    (out / "integrity.html").write_text(renderer.integrity(leads, len(evidence)), encoding="utf-8")
-    (out / "section.html").write_text(renderer.section(summaries, skipped, sheet_links, len(leads)), encoding="utf-8")
-
-    graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
-    if graded:
-        percents = [100.0 * s["score"] / s["max_score"] for s in graded]
-        run.mean_percent = sum(percents) / len(percents)
-        run.n_pass = sum(p >= 100.0 * spec.pass_fraction - 1e-9 for p in percents)
+    try:
+        recover_output(out)
+    except OSError as exc:
+        raise _write_failure(out.parent, exc) from None
+    _check_output_folder(out, inputs, force)
+    staging = _staging(out)
+    try:
+        staging.mkdir(parents=True)
+        (staging / "feedback").mkdir()
+        run = _SectionRun(spec, out, staging, roster_rows, progress).grade(inputs, roster, limits)
+        _commit(staging, out)
+    except OSError as exc:
+        shutil.rmtree(staging, ignore_errors=True)
+        raise _write_failure(out, exc) from None
+    except BaseException:  # our own errors, an interrupt: nothing half-written stays behind
+        shutil.rmtree(staging, ignore_errors=True)
+        raise
     return run
 
 
-def _grade_one(item: RawSubmission, spec: LabSpec, obs_keys, res_keys, run: RunSummary) -> dict:
-    if item.error:
-        return unreadable_record(item.source, item.error)
-    try:
-        sub = normalise(item, spec, obs_keys, res_keys)
-        return grade_submission(sub, spec)
-    except Exception as exc:  # one file's surprise must not stop the batch
-        run.internal_errors.append(f"{item.source}\n{traceback.format_exc()}")
-        return unreadable_record(
-            item.source, f"labcheck failed on this file ({type(exc).__name__}: {exc}); this is a bug, please report it"
-        )
+@dataclass
+class _Outcome:
+    """What grading one input produced: its record's JSON, its slim summary, and its sheet."""
+
+    text: str
+    summary: dict
+    evidence: object | None = None
+    sheet_html: str | None = None
+    sheet_name: str | None = None
 
 
-def _resolve_identity(record: dict, item: RawSubmission, roster_ids, seen_ids: dict[str, str], run: RunSummary) -> None:
-    if not record["student_id"]:
-        stem = PurePosixPath(item.source).stem
-        record["student_id"] = safe_id(stem)
-        record["flags"].append({"row": None, "item": "student_id", "value": "",
-                                "message": f"no student_id given; the file name is used ({record['student_id']})"})
-    sid = record["student_id"]
-    if roster_ids is not None:
-        if sid in roster_ids:
-            if not record["name"]:
-                record["name"] = roster_ids[sid]["name"]
+class _SectionRun:
+    def __init__(self, spec: LabSpec, out: Path, staging: Path, roster_rows, progress):
+        self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
+        self.renderer = Renderer(spec)
+        self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
+        self.roster_rows = roster_rows
+        self.roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
+        self.run = RunSummary(out)
+        self.seen_ids: dict[str, str] = {}
+        self.used_sheet_names: set[str] = set()
+
+    def grade(self, inputs, roster, limits: Limits) -> RunSummary:
+        spec, run, staging = self.spec, self.run, self.staging
+        exclude = {self.out.resolve(), staging.resolve(), _previous(self.out).resolve()}
+        if roster:
+            exclude.add(Path(roster).resolve())
+        writer = ResultsWriter(staging / "results.json", spec)
+        try:
+            summaries, skipped, sheet_links, evidence = [], [], {}, []
+            count = 0
+            for item in iter_submissions(inputs, limits, exclude=exclude):
+                count += 1
+                if self.progress:
+                    self.progress(count, item.source)
+                if isinstance(item, Skipped):
+                    skipped.append({"file": item.source, "reason": item.reason})
+                    run.n_skipped += 1
+                    continue
+                run.n_files += 1
+                outcome = self._process(item)
+                if outcome.sheet_html is not None:
+                    _write_text(staging / "feedback" / outcome.sheet_name, outcome.sheet_html)
+                    sheet_links[len(summaries)] = f"feedback/{outcome.sheet_name}"
+                if outcome.evidence is not None:
+                    evidence.append(outcome.evidence)
+                writer.add(outcome.text)
+                summaries.append(outcome.summary)
+                self._count(outcome.summary)
+            if run.n_files == 0:
+                where = ", ".join(str(i) for i in inputs)
+                extra = f" (only {run.n_skipped} clutter file(s))" if run.n_skipped else ""
+                raise InputError(f"found no submission files in {where}{extra}; nothing graded")
+            if self.roster_rows is not None:
+                present = {s["student_id"] for s in summaries if s["student_id"]}
+                for r in self.roster_rows:
+                    if r["student_id"] not in present:
+                        rec = missing_record(r["student_id"], r["name"])
+                        rec["sheet"] = None
+                        writer.add(record_json(rec))
+                        summaries.append(_summary(rec, spec))
+                        run.n_missing += 1
+
+            write_gradebook(staging / "gradebook.csv", spec, [s["gradebook"] for s in summaries])
+            leads = find_leads(evidence)
+            run.n_leads = len(leads)
+            _write_text(staging / "integrity.json", json.dumps(
+                {"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD, "leads": leads},
+                indent=1, ensure_ascii=False))
+            _write_text(staging / "integrity.html", self.renderer.integrity(leads, len(evidence)))
+            _write_text(staging / "section.html", self.renderer.section(summaries, skipped, sheet_links, len(leads)))
+            if run.internal_errors:
+                _write_text(staging / ERROR_LOG, _error_log(run.internal_errors))
+            graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
+            if graded:
+                percents = [100.0 * s["score"] / s["max_score"] for s in graded]
+                run.mean_percent = sum(percents) / len(percents)
+                run.n_pass = sum(p >= 100.0 * spec.pass_fraction - 1e-9 for p in percents)
+            completion = {"complete": True, "labcheck_version": __version__,
+                          "finished": run_time().isoformat(timespec="seconds"), "counts": run.counts(),
+                          "integrity_leads": run.n_leads, "exit_status": run.exit_code}
+            writer.close({"skipped": skipped, "run": completion})  # the completion record is written last
+        except BaseException:
+            writer.abandon()
+            raise
+        return run
+
+    def _count(self, summary: dict) -> None:
+        status = summary["status"]
+        if status == "graded":
+            self.run.n_graded += 1
+        elif status == "wrong_lab":
+            self.run.n_wrong_lab += 1
+        elif status == "error":
+            self.run.n_errors += 1
         else:
-            record["unmatched"] = True
-            run.n_unmatched += 1
+            self.run.n_unreadable += 1
+        self.run.n_unmatched += bool(summary.get("unmatched"))
+
+    def _process(self, item: RawSubmission) -> _Outcome:
+        """Everything for one input inside one guard: a fault here is this file's, never the batch's."""
+        spec = self.spec
+        try:
+            if item.error:
+                record = unreadable_record(item.source, item.error)
+                sub = None
+            else:
+                sub = normalise(item, spec, self.obs_keys, self.res_keys)
+                wrong = wrong_lab_message(sub, spec)
+                if wrong:
+                    record = unreadable_record(item.source, wrong)
+                    record.update(status="wrong_lab", student_id=sub.identity.get("student_id", ""),
+                                  name=sub.identity.get("name", ""))
+                else:
+                    record = grade_submission(sub, spec)
+            self._id_from_path(record, item)
+            html = sheet = evidence = None
+            record["sheet"] = None
+            if record["status"] == "graded":
+                self._resolve_identity(record, item)
+                sheet = sheet_file_name(record["student_id"], self.used_sheet_names)
+                try:
+                    html = self.renderer.sheet(record)
+                    record["sheet"] = f"feedback/{sheet}"
+                except Exception:  # a renderer fault must not lose the grade
+                    self.run.internal_errors.append(f"{item.source}: rendering the sheet failed\n{traceback.format_exc()}")
+                    record["flags"].append({"row": None, "item": "", "value": "",
+                                            "message": "labcheck could not render this sheet; the instructor has the details"})
+                evidence = collect_evidence(record, item.rows, spec.shared_items)
+            return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet)
+        except Exception:
+            self.run.internal_errors.append(f"{item.source}\n{traceback.format_exc()}")
+            record = unreadable_record(item.source, "labcheck failed on this file (a fault in labcheck, not in the "
+                                                    f"file); the traceback is in {ERROR_LOG}")
+            record.update(status="error", sheet=None)
+            try:
+                self._id_from_path(record, item)
+            except Exception:
+                pass
+            return _Outcome(record_json(record), _summary(record, spec))
+
+    def _id_from_path(self, record: dict, item: RawSubmission) -> None:
+        if not record["student_id"] and self.roster_ids:
+            match = _roster_id_in_path(item.source, self.roster_ids)
+            if match:
+                record["student_id"] = match
+                record["name"] = record["name"] or self.roster_ids[match]["name"]
+                record["flags"].append({"row": None, "item": "student_id", "value": match,
+                                        "message": "student_id taken from the file's path in the export"})
+
+    def _resolve_identity(self, record: dict, item: RawSubmission) -> None:
+        if not record["student_id"]:
+            stem = PurePosixPath(item.source).stem
+            record["student_id"] = safe_id(stem)
+            record["flags"].append({"row": None, "item": "student_id", "value": "",
+                                    "message": f"no student_id given; the file name is used ({record['student_id']})"})
+        sid = record["student_id"]
+        if self.roster_ids is not None:
+            if sid in self.roster_ids:
+                if not record["name"]:
+                    record["name"] = self.roster_ids[sid]["name"]
+            else:
+                record["unmatched"] = True
+                record["flags"].append({"row": None, "item": "student_id", "value": sid,
+                                        "message": "this student_id is not on the roster"})
+        if sid in self.seen_ids:
             record["flags"].append({"row": None, "item": "student_id", "value": sid,
-                                    "message": "this student_id is not on the roster"})
-    if sid in seen_ids:
-        record["flags"].append({"row": None, "item": "student_id", "value": sid,
-                                "message": f"another submission has the same student_id ({seen_ids[sid]})"})
-    else:
-        seen_ids[sid] = record["submission"]
+                                    "message": f"another submission has the same student_id ({self.seen_ids[sid]})"})
+        else:
+            self.seen_ids[sid] = record["submission"]
+
+
+def _error_log(errors: list[str]) -> str:
+    head = (f"labcheck {__version__}: faults of labcheck's own, one block per file (for the instructor; "
+            "please report them). The files' students are listed with status 'error'.\n")
+    return head + "".join(f"\n{'=' * 72}\n{e.rstrip()}\n" for e in errors)
 
 
 _TOKEN_SPLIT = re.compile(r"[\\/\s_.,;()\[\]]+")
@@ -247,8 +430,16 @@ def _roster_id_in_path(source: str, roster_ids: dict) -> str | None:
     return hits[0] if len(hits) == 1 else None
 
 
-def _unique_sheet_name(student_id: str, used: set[str]) -> str:
+# Names Windows reserves for devices, with any extension (CON.html cannot be opened there).
+_RESERVED_NAMES = {"con", "prn", "aux", "nul", *(f"com{i}" for i in range(10)), *(f"lpt{i}" for i in range(10)),
+                   "com¹", "com²", "com³", "lpt¹", "lpt²", "lpt³"}
+
+
+def sheet_file_name(student_id: str, used: set[str]) -> str:
+    """A sheet file name from a student id: safe on every common system, unique (case-insensitively) in ``used``."""
     base = safe_id(student_id)
+    if base.split(".")[0].lower() in _RESERVED_NAMES:
+        base = f"id-{base}"
     name, n = f"{base}.html", 2
     while name.lower() in used:
         name = f"{base}-{n}.html"

@@ -1,9 +1,11 @@
 """The ``labcheck`` command: thin wiring over the library.
 
 Our own exceptions (a bad spec, a missing input, a full output folder) become
-a one-line message and exit status 2; anything else is a bug and keeps its
-traceback.  Exit status: 0 all graded; 1 graded with some submissions
-unreadable or missing; 2 usage or spec error (nothing graded).
+a one-line message; anything else is a bug and keeps its traceback.  Exit
+status: 0 all graded; 1 graded with some submissions unreadable (or made from
+another lab's template) or some students missing; 2 usage, input or spec
+error (nothing graded, nothing written); 3 labcheck itself failed on some file
+(tracebacks in labcheck-errors.log) or could not write its outputs.
 """
 
 from __future__ import annotations
@@ -15,7 +17,8 @@ import sys
 from pathlib import Path
 
 from . import __version__
-from .batch import OutputExistsError, count_inputs, grade_section
+from .batch import (EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE, ERROR_LOG, OutputExistsError,
+                    OutputWriteError, count_inputs, grade_section)
 from .ingest import InputError, Limits, read_rows
 from .resources import shipped_spec, specs_dir
 from .compare import ResultsError
@@ -91,6 +94,8 @@ def _print_summary(run, spec: LabSpec, out: Path) -> None:
         print(f"  mean score {run.mean_percent:.0f} %; {run.n_pass} of {run.n_graded} at or above the pass mark ({spec.pass_fraction:.0%})")
     if run.n_unreadable:
         print(c(f"  {run.n_unreadable} unreadable file(s): reasons in section.html and results.json", "33"))
+    if run.n_wrong_lab:
+        print(c(f"  {run.n_wrong_lab} file(s) made from another lab's template: listed in section.html", "33"))
     if run.n_missing:
         print(c(f"  {run.n_missing} student(s) on the roster with no submission", "33"))
     if run.n_unmatched:
@@ -98,9 +103,8 @@ def _print_summary(run, spec: LabSpec, out: Path) -> None:
     if run.n_skipped:
         print(f"  {run.n_skipped} clutter file(s) passed over (listed in results.json)")
     if run.internal_errors:
-        print(c(f"  {len(run.internal_errors)} file(s) hit a labcheck bug; details on stderr", "31"))
-        for err in run.internal_errors:
-            print(err, file=sys.stderr)
+        print(c(f"  labcheck itself failed on {len(run.internal_errors)} file(s) (status 'error'): "
+                f"tracebacks in {out / ERROR_LOG}; please report them", "31"))
     if run.n_leads:
         print(c(f"  {run.n_leads} integrity lead(s) for your review (instructor only): {out / 'integrity.html'}", "33"))
     print(f"  section summary: {out / 'section.html'}")
@@ -125,11 +129,21 @@ def cmd_check(args) -> int:
     raw = read_rows(p.read_bytes(), p.name, limits)
     if raw.error:
         print(f"{p.name}: unreadable: {raw.error}")
-        return 1
-    record = grade_submission(normalise(raw, spec), spec)
+        return EXIT_INCOMPLETE
+    sub = normalise(raw, spec)
+    from .labmatch import wrong_lab_message
+
+    wrong = wrong_lab_message(sub, spec)
+    if wrong:
+        print(f"{p.name}: {wrong}")
+        return EXIT_INCOMPLETE
+    record = grade_submission(sub, spec)
     c = _Colour(sys.stdout)
     colours = {"correct": "32", "carried": "33", "wrong": "31", "missing": "90"}
     print(f"{spec.title}: {p.name}  ({record['name'] or '?'}, {record['student_id'] or 'no student_id'})")
+    for f in record["reading"]:
+        where = f"  row {f['row']}: {f['item']} = {f['value']!r}: " if f["row"] is not None else "  "
+        print(f"{where}{f['message']}")
     for f in record["flags"]:
         print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
     from .units import format_fixed
@@ -199,7 +213,8 @@ def cmd_demo(args) -> int:
             raise OutputExistsError(f"{out} is not empty and is not an earlier demo; choose another --out or add --force")
     out.mkdir(parents=True, exist_ok=True)
     (out / DEMO_MARKER).write_text("made by labcheck demo; safe to delete\n", encoding="utf-8")
-    worst = 0
+    surprises = []
+    worst = EXIT_OK
     for section in SECTIONS:
         folder = out / section.folder
         zip_path, roster = build_demo(folder, section)
@@ -208,11 +223,19 @@ def cmd_demo(args) -> int:
         progress = None if args.quiet else _progress(count_inputs([zip_path]), sys.stderr)
         run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress)
         _print_summary(run, spec, folder / "graded")
-        worst = max(worst, run.exit_code)
+        expected = (len(section.unreadable), 1 if section.missing_student else 0, 0, 0)
+        got = (run.n_unreadable, run.n_missing, run.n_wrong_lab, run.n_errors)
+        if got != expected:
+            surprises.append(f"section {section.code}: expected {expected[0]} unreadable and {expected[1]} missing, "
+                             f"got {got[0]} unreadable, {got[1]} missing, {got[2]} wrong-lab, {got[3]} labcheck failures")
+            worst = max(worst, EXIT_LABCHECK_FAILED if run.n_errors else EXIT_INCOMPLETE)
         if section.lab == "horizon_dip":
             _demo_tune_and_diff(spec, zip_path, roster, folder)
     print(f"\nStart with {out / SECTIONS[0].folder / 'graded' / 'section.html'}")
-    print("(the demo plants unreadable files and students with no submission: exit status 1 is expected)")
+    if surprises:
+        print("The demo did not go as planned:\n  " + "\n  ".join(surprises), file=sys.stderr)
+    else:
+        print("The demo ran as planned: its unreadable files and missing students are planted on purpose.")
     return worst
 
 
@@ -396,10 +419,13 @@ def main(argv: list[str] | None = None) -> int:
         return args.func(args)
     except SpecError as exc:
         print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
-        return 2
+        return EXIT_USAGE
     except (InputError, OutputExistsError, ResultsError) as exc:
         print(f"labcheck: {exc}", file=sys.stderr)
-        return 2
+        return EXIT_USAGE
+    except OutputWriteError as exc:
+        print(f"labcheck: {exc}", file=sys.stderr)
+        return EXIT_LABCHECK_FAILED
     except KeyboardInterrupt:
         print("labcheck: interrupted", file=sys.stderr)
         return 130

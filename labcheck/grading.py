@@ -737,6 +737,7 @@ def grade_submission(sub: Submission, spec: LabSpec) -> dict:
         "quality": quality,
         "quality_score": quality_score,
         "flags": flags,
+        "reading": sub.reading,
         "observations": observations,
         "notes": sub.notes,
     }
@@ -747,7 +748,7 @@ def unreadable_record(source: str, error: str) -> dict:
     return {
         "submission": source, "student_id": "", "name": "", "group": "", "date": "", "site": "",
         "status": "unreadable", "error": error, "methods": [], "score": None, "max_score": None,
-        "steps": [], "accuracy": {}, "quality": [], "quality_score": None, "flags": [], "observations": [], "notes": [],
+        "steps": [], "accuracy": {}, "quality": [], "quality_score": None, "flags": [], "reading": [], "observations": [], "notes": [],
     }
 
 

@@ -2,14 +2,25 @@
 
 Student files are untrusted.  Nothing is extracted to disk: zip members are
 read into memory, with caps on every size, and a member whose name is
-absolute or climbs out with ``..`` is refused.  A file that cannot be read
-becomes a :class:`RawSubmission` with an ``error``; it never stops the batch.
+absolute or climbs out with ``..`` is refused.  Every cap is checked from
+what a file declares (an archive's central directory, a workbook's parts)
+before anything is expanded, and again while reading, since a declaration
+may lie.  A file that cannot be read becomes a :class:`RawSubmission` with
+an ``error``; no input fault ever escapes this module as an exception.
+
+CSV is read as spreadsheet programs write it: LF, CRLF or CR-only line
+endings; a ``sep=`` first line; comma, semicolon, tab or bar separators
+found from the header row; UTF-8 with or without a byte-order mark, UTF-16
+with one, and Windows-1252 only when the bytes are not UTF-8 (with a note
+on the sheet); doubled quotes inside quoted fields.
 """
 
 from __future__ import annotations
 
 import csv
 import io
+import re
+import struct
 import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
@@ -25,14 +36,18 @@ __all__ = [
     "read_rows",
     "read_roster",
     "COLUMNS",
+    "SUBMISSION_SUFFIXES",
 ]
 
 COLUMNS = ("part", "item", "value", "unit", "note")
 REQUIRED_COLUMNS = ("part", "item", "value")
-SUBMISSION_SUFFIXES = (".csv", ".xlsx")
+SUBMISSION_SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx")
 # Files an operating system or archiver leaves behind; listed as skipped, not graded.
 _JUNK_NAMES = {".ds_store", "thumbs.db", "desktop.ini"}
 _JUNK_DIRS = {"__macosx"}
+_DELIMITERS = (",", ";", "\t", "|")
+# Rows searched for the header row (a title or a blank line may come first).
+_HEADER_SEARCH_ROWS = 20
 
 
 class InputError(Exception):
@@ -41,13 +56,22 @@ class InputError(Exception):
 
 @dataclass(frozen=True)
 class Limits:
-    """Caps on what one run will read.  Defaults suit a department-sized batch."""
+    """Caps on what one run will read.  Defaults suit a department-sized batch.
+
+    Each cap bounds one file's cost: the defaults keep any file inside them
+    under about a second and 200 MB (measured by benchmarks/bench_worst_inputs.py).
+    A real submission is 2-30 KB with 20-200 rows.
+    """
 
     max_file_bytes: int = 5 * 1024 * 1024  # one submission file
     max_rows: int = 5000  # rows in one submission
+    max_line_chars: int = 20_000  # one CSV line (a long note fits many times over)
     max_zip_members: int = 50_000
     max_zip_total_bytes: int = 1024 * 1024 * 1024  # uncompressed, whole archive
-    max_xlsx_unpacked_bytes: int = 50 * 1024 * 1024  # an XLSX is itself a zip
+    max_xlsx_unpacked_bytes: int = 50 * 1024 * 1024  # an XLSX is itself a zip: all its parts
+    max_xlsx_part_bytes: int = 4 * 1024 * 1024  # one worksheet or the shared strings, unpacked
+    max_xlsx_parts: int = 500  # parts in one workbook
+    max_xlsx_sheets: int = 50
 
 
 @dataclass
@@ -60,15 +84,24 @@ class Row:
     value: str
     unit: str
     note: str
+    issue: str = ""  # a fault found while reading this row (a formula with no saved value)
 
 
 @dataclass
 class RawSubmission:
-    """A submission file: its rows, or why it could not be read."""
+    """A submission file: its rows, or why it could not be read.
+
+    ``notes`` say how the file was read when that is worth telling the
+    student (another encoding, another sheet); they appear on the sheet.
+    ``decimal_hint`` is ``","`` when the file's separator is one that
+    decimal-comma locales write (``;``), else None.
+    """
 
     source: str  # the file's name as the instructor will recognise it
     rows: list[Row] = field(default_factory=list)
     error: str | None = None
+    notes: list[str] = field(default_factory=list)
+    decimal_hint: str | None = None
 
 
 @dataclass(frozen=True)
@@ -129,14 +162,18 @@ def _from_file(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissi
     if path.suffix.lower() == ".zip":
         yield from _from_zip(path, display, limits)
         return
-    size = path.stat().st_size
-    if size > limits.max_file_bytes:
-        yield RawSubmission(display, error=f"file too large ({size} bytes; the cap is {limits.max_file_bytes})")
-        return
     try:
-        data = path.read_bytes()
+        size = path.stat().st_size
+        if size > limits.max_file_bytes:
+            yield RawSubmission(display, error=f"file too large ({size} bytes; the cap is {limits.max_file_bytes})")
+            return
+        with open(path, "rb") as fh:
+            data = fh.read(limits.max_file_bytes + 1)  # the file may grow while we read
     except OSError as exc:
         yield RawSubmission(display, error=f"cannot read the file: {exc.strerror or exc}")
+        return
+    if len(data) > limits.max_file_bytes:
+        yield RawSubmission(display, error=f"file too large (over {limits.max_file_bytes} bytes)")
         return
     yield read_rows(data, display, limits)
 
@@ -152,11 +189,64 @@ def _safe_member_name(name: str) -> str | None:
     return n
 
 
+_EOCD = struct.Struct("<4s4H2LH")  # end of central directory record
+_ZIP64_LOCATOR = struct.Struct("<4sLQL")
+_ZIP64_EOCD = struct.Struct("<4sQ2H2L4Q")
+
+
+def zip_directory_size(fh) -> tuple[int, int] | None:
+    """(members, central-directory bytes) as an archive declares them, read from its last 64 KiB.
+
+    Read before the archive is opened, so that an archive declaring a
+    million members is refused without listing them.  None when no
+    end-of-central-directory record is found (not a zip).  The zip format:
+    PKWARE APPNOTE.TXT, sections 4.3.14-4.3.16.
+    """
+    fh.seek(0, io.SEEK_END)
+    size = fh.tell()
+    tail_len = min(size, _EOCD.size + 65535)
+    fh.seek(size - tail_len)
+    tail = fh.read(tail_len)
+    at = tail.rfind(b"PK\x05\x06")
+    if at < 0 or at + _EOCD.size > len(tail):
+        return None
+    _, _, _, _, members, cd_size, _, _ = _EOCD.unpack_from(tail, at)
+    loc = at - _ZIP64_LOCATOR.size
+    if loc >= 0 and tail[loc:loc + 4] == b"PK\x06\x07":
+        _, _, offset, _ = _ZIP64_LOCATOR.unpack_from(tail, loc)
+        if 0 <= offset <= size - _ZIP64_EOCD.size:
+            fh.seek(offset)
+            rec = fh.read(_ZIP64_EOCD.size)
+            if rec[:4] == b"PK\x06\x06":
+                fields = _ZIP64_EOCD.unpack(rec)
+                members, cd_size = fields[7], fields[8]
+    return members, cd_size
+
+
+# Each central-directory entry is 46 bytes plus its name, extra field and comment.
+_CD_BYTES_PER_MEMBER = 46 + 1024
+
+
 def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmission | Skipped]:
     try:
+        with open(path, "rb") as fh:
+            declared = zip_directory_size(fh)
+    except OSError as exc:
+        yield RawSubmission(display, error=f"cannot read the file: {exc.strerror or exc}")
+        return
+    if declared is None:
+        yield RawSubmission(display, error="not a readable zip archive (no central directory)")
+        return
+    if declared[0] > limits.max_zip_members:
+        yield RawSubmission(display, error=f"archive declares {declared[0]} files; the cap is {limits.max_zip_members}")
+        return
+    if declared[1] > limits.max_zip_members * _CD_BYTES_PER_MEMBER:
+        yield RawSubmission(display, error=f"archive's directory is {declared[1]} bytes; too large to list")
+        return
+    try:
         archive = zipfile.ZipFile(path)
-    except (zipfile.BadZipFile, OSError) as exc:
-        yield RawSubmission(display, error=f"not a readable zip archive ({exc})")
+    except Exception as exc:  # zipfile raises many types for a corrupt archive
+        yield RawSubmission(display, error=f"not a readable zip archive ({type(exc).__name__}: {exc})")
         return
     with archive:
         members = [m for m in archive.infolist() if not m.is_dir()]
@@ -176,6 +266,13 @@ def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissio
             if _is_junk(parts):
                 yield Skipped(shown, "operating-system or archiver clutter")
                 continue
+            suffix = PurePosixPath(safe).suffix.lower()
+            if suffix == ".zip":
+                yield RawSubmission(shown, error="a zip inside a zip is not opened; submit its files directly")
+                continue
+            if suffix not in SUBMISSION_SUFFIXES:
+                yield read_rows(b"", shown, limits)  # refused by name, without expanding it
+                continue
             if info.file_size > limits.max_file_bytes:
                 yield RawSubmission(
                     shown, error=f"refused: expands to {info.file_size} bytes; the cap is {limits.max_file_bytes}"
@@ -184,14 +281,11 @@ def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissio
             if total + info.file_size > limits.max_zip_total_bytes:
                 yield RawSubmission(shown, error="refused: the archive expands beyond the total size cap")
                 continue
-            if PurePosixPath(safe).suffix.lower() == ".zip":
-                yield RawSubmission(shown, error="a zip inside a zip is not opened; submit its files directly")
-                continue
             try:
                 with archive.open(info) as fh:
                     data = fh.read(limits.max_file_bytes + 1)  # the declared size may lie
-            except (zipfile.BadZipFile, OSError, RuntimeError, NotImplementedError, EOFError) as exc:
-                yield RawSubmission(shown, error=f"cannot read this archive member ({exc})")
+            except Exception as exc:  # corrupt deflate/LZMA/bzip2 data, bad CRC, encryption, truncation
+                yield RawSubmission(shown, error=f"cannot read this archive member ({type(exc).__name__}: {exc})")
                 continue
             if len(data) > limits.max_file_bytes:
                 yield RawSubmission(shown, error=f"refused: expands beyond {limits.max_file_bytes} bytes")
@@ -201,44 +295,102 @@ def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissio
 
 
 def read_rows(data: bytes, source: str, limits: Limits = Limits()) -> RawSubmission:
-    """Parse one submission file's bytes (CSV or XLSX by name) into rows."""
+    """Parse one submission file's bytes (CSV, TSV or XLSX by name) into rows.  Never raises."""
     suffix = PurePosixPath(source).suffix.lower()
     if suffix not in SUBMISSION_SUFFIXES:
         hint = " (the old .xls format: save it as .xlsx or CSV)" if suffix == ".xls" else ""
         return RawSubmission(source, error=f"not a CSV or XLSX submission{hint}")
     if not data.strip():
         return RawSubmission(source, error="the file is empty")
+    if len(data) > limits.max_file_bytes:
+        return RawSubmission(source, error=f"file too large ({len(data)} bytes; the cap is {limits.max_file_bytes})")
+    raw = RawSubmission(source)
     try:
-        table = _xlsx_table(data, limits) if suffix == ".xlsx" else _csv_table(data)
+        if suffix == ".xlsx":
+            table = _xlsx_table(data, limits, raw)
+        else:
+            table = _csv_table(data, limits, raw, tab_default=suffix in (".tsv", ".txt"))
     except _Unreadable as exc:
         return RawSubmission(source, error=str(exc))
-    return _rows_from_table(table, source, limits)
+    return _rows_from_table(table, raw, limits)
 
 
 class _Unreadable(Exception):
     pass
 
 
-def _csv_table(data: bytes) -> list[list[str]]:
+def _decode(data: bytes, raw: RawSubmission) -> str:
+    """Text from bytes: UTF-8 (BOM or not), UTF-16 with a BOM, else Windows-1252 with a note."""
+    if data.startswith((b"\xff\xfe", b"\xfe\xff")):
+        try:
+            return data.decode("utf-16")
+        except UnicodeDecodeError:
+            raise _Unreadable("broken UTF-16 text; save the file as 'CSV UTF-8'") from None
     if b"\x00" in data[:8192]:
-        raise _Unreadable("binary data, not a CSV text file")
+        raise _Unreadable("binary data, not a CSV text file; save the file as 'CSV UTF-8'")
     if data[:4] == b"PK\x03\x04":
         raise _Unreadable("this is a zip or XLSX file named .csv; rename it to .xlsx or export it as CSV")
     try:
-        text = data.decode("utf-8-sig")
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        pass
+    try:
+        text = data.decode("cp1252")
     except UnicodeDecodeError as exc:
-        raise _Unreadable(
-            f"not UTF-8 text (byte {exc.start}); save the file as 'CSV UTF-8'"
-        ) from None
+        raise _Unreadable(f"neither UTF-8 nor Windows-1252 text (byte {exc.start}); save the file as 'CSV UTF-8'") from None
+    raw.notes.append("The file is not UTF-8 text; it was read as Windows-1252. "
+                     "Check accented letters in your name and notes; save as 'CSV UTF-8' next time.")
+    return text
+
+
+def _split_lines(text: str) -> list[str]:
+    """Physical lines, ending in LF, CRLF or a lone CR (kept, so quoted line breaks survive)."""
+    return re.split(r"(?<=\r\n)|(?<=\n)|(?<=\r)(?!\n)", text)
+
+
+def _header_delimiter(lines: list[str], tab_default: bool) -> str:
+    """The separator that splits the header row into cells naming part, item and value."""
+    for line in lines[:_HEADER_SEARCH_ROWS]:
+        if not line.strip():
+            continue
+        for delim in _DELIMITERS:
+            cells = next(csv.reader([line.rstrip("\r\n")], delimiter=delim), [])
+            names = {c.strip().lower() for c in cells}
+            if all(col in names for col in REQUIRED_COLUMNS):
+                return delim
+    if tab_default:
+        return "\t"
+    first = next((ln for ln in lines[:_HEADER_SEARCH_ROWS] if ln.strip()), "")
+    return max(_DELIMITERS, key=first.count)
+
+
+def _csv_table(data: bytes, limits: Limits, raw: RawSubmission, tab_default: bool) -> list[list[str]]:
+    text = _decode(data, raw)
+    lines = _split_lines(text)
+    delim = None
+    first = next((i for i, ln in enumerate(lines) if ln.strip()), None)
+    if first is not None:
+        m = re.fullmatch(r'\s*"?sep=(.)"?\s*', lines[first].rstrip("\r\n"), flags=re.IGNORECASE)
+        if m:  # a spreadsheet's "sep=;" line names the separator
+            delim = m.group(1)
+            lines[first] = "\n"  # keeps row numbers as a spreadsheet shows them
+    long_line = next((i for i, ln in enumerate(lines) if len(ln) > limits.max_line_chars), None)
+    if long_line is not None:
+        raise _Unreadable(f"line {long_line + 1} is longer than {limits.max_line_chars} characters; "
+                          "is this a submission template?")
+    delim = delim or _header_delimiter(lines, tab_default)
+    if delim == ";":
+        raw.decimal_hint = ","
+    table: list[list[str]] = []
     try:
-        sample = text[:4096]
-        dialect = csv.Sniffer().sniff(sample, delimiters=",;\t") if sample.count("\n") else csv.excel
-    except csv.Error:
-        dialect = csv.excel
-    try:
-        return [row for row in csv.reader(io.StringIO(text, newline=""), dialect)]
+        reader = csv.reader(lines, delimiter=delim, quotechar='"', doublequote=True, strict=False)
+        for cells in reader:
+            table.append(cells)
+            if len(table) > limits.max_rows + _HEADER_SEARCH_ROWS:
+                break
     except csv.Error as exc:
         raise _Unreadable(f"malformed CSV ({exc})") from None
+    return table
 
 
 def _xlsx_cell_text(value) -> str:
@@ -253,14 +405,43 @@ def _xlsx_cell_text(value) -> str:
     return str(value)
 
 
-def _xlsx_table(data: bytes, limits: Limits) -> list[list[str]]:
+_FORMULA_RE = re.compile(rb"<(?:\w+:)?f[\s>/]")
+
+
+def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[str]]:
+    """The sheet holding the header row, as text cells, read within the caps.
+
+    Only the columns up to the last of ours are materialised, so a cell typed
+    in the last column of a row costs nothing; the row cap stops reading.
+    """
     try:
         zf = zipfile.ZipFile(io.BytesIO(data))
-    except zipfile.BadZipFile:
+        infos = zf.infolist()
+    except Exception:
         raise _Unreadable("not a valid XLSX workbook") from None
-    unpacked = sum(i.file_size for i in zf.infolist())
+    if len(infos) > limits.max_xlsx_parts:
+        raise _Unreadable(f"the workbook has {len(infos)} parts; the cap is {limits.max_xlsx_parts}")
+    unpacked = sum(i.file_size for i in infos)
     if unpacked > limits.max_xlsx_unpacked_bytes:
         raise _Unreadable(f"workbook expands to {unpacked} bytes; the cap is {limits.max_xlsx_unpacked_bytes}")
+    big = [i for i in infos if i.file_size > limits.max_xlsx_part_bytes]
+    if big:
+        raise _Unreadable(f"the workbook part {big[0].filename} expands to {big[0].file_size} bytes; "
+                          f"the cap is {limits.max_xlsx_part_bytes} (a submission needs far less)")
+    has_formulas = False
+    try:
+        for info in infos:
+            if info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml"):
+                with zf.open(info) as fh:
+                    part = fh.read(limits.max_xlsx_part_bytes + 1)
+                if len(part) > limits.max_xlsx_part_bytes:
+                    raise _Unreadable(f"the workbook part {info.filename} expands beyond {limits.max_xlsx_part_bytes} bytes")
+                has_formulas = has_formulas or bool(_FORMULA_RE.search(part))
+    except _Unreadable:
+        raise
+    except Exception as exc:
+        raise _Unreadable(f"not a readable XLSX workbook ({type(exc).__name__})") from None
+
     import openpyxl  # imported here: CSV-only runs never pay for it
 
     try:
@@ -268,42 +449,108 @@ def _xlsx_table(data: bytes, limits: Limits) -> list[list[str]]:
     except Exception as exc:  # openpyxl raises many types for a corrupt workbook
         raise _Unreadable(f"not a readable XLSX workbook ({type(exc).__name__})") from None
     try:
-        ws = wb.worksheets[0]
-        table = []
-        for i, row in enumerate(ws.iter_rows(values_only=True)):
-            if i > limits.max_rows + 1:
-                break
-            table.append([_xlsx_cell_text(v) for v in row])
-        return table
+        sheets = wb.worksheets[: limits.max_xlsx_sheets]
+        if not sheets:
+            raise _Unreadable("the workbook has no worksheet")
+        chosen, width = _find_sheet(sheets)
+        if chosen is None:
+            chosen, width = sheets[0], len(COLUMNS) + 1
+        elif chosen is not sheets[0]:
+            raw.notes.append(f"Read the sheet {chosen.title!r}, where the header row is; the workbook's first sheet "
+                             f"{sheets[0].title!r} has none.")
+        table = _read_sheet(chosen, width, limits)
+    except _Unreadable:
+        raise
+    except Exception as exc:  # a cell openpyxl cannot convert (bad number, date, shared-string index)
+        raise _Unreadable(f"the workbook has a cell that cannot be read ({type(exc).__name__}: {exc}); "
+                          "open it in a spreadsheet program and save it again, or export it as CSV") from None
+    finally:
+        wb.close()
+    if has_formulas:
+        _flag_unsaved_formulas(data, chosen.title, width, table, limits)
+    return table
+
+
+def _find_sheet(sheets) -> tuple[object | None, int]:
+    """The first sheet with a header row in its first rows, and how many columns to read."""
+    for ws in sheets:
+        for row in ws.iter_rows(max_row=_HEADER_SEARCH_ROWS, max_col=64, values_only=True):
+            names = [_xlsx_cell_text(v).strip().lower() for v in row]
+            if all(col in names for col in REQUIRED_COLUMNS):
+                last = max(names.index(c) for c in COLUMNS if c in names)
+                return ws, last + 1
+    return None, 0
+
+
+def _read_sheet(ws, width: int, limits: Limits) -> list[list[str]]:
+    table = []
+    for row in ws.iter_rows(max_col=width, values_only=True):
+        table.append([_xlsx_cell_text(v) for v in row])
+        if len(table) > limits.max_rows + _HEADER_SEARCH_ROWS:
+            break
+    return table
+
+
+_UNSAVED_FORMULA = ("a formula with no saved value (the file was never calculated and saved by a spreadsheet "
+                    "program): open it in one, let it calculate, and save it, or type the value")
+
+
+def _flag_unsaved_formulas(data: bytes, title: str, width: int, table: list[list[str]], limits: Limits) -> None:
+    """Mark cells that hold a formula but no saved value, which data_only reading sees as blank."""
+    import openpyxl
+
+    wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False)
+    try:
+        for r, row in enumerate(_read_sheet(wb[title], width, limits)):
+            for c, text in enumerate(row):
+                if text.startswith("=") and r < len(table) and c < len(table[r]) and table[r][c] == "":
+                    table[r][c] = _UNSAVED_FORMULA_MARK
     finally:
         wb.close()
 
 
-def _rows_from_table(table: list[list[str]], source: str, limits: Limits) -> RawSubmission:
-    # The header is the first non-blank row.
-    start = next((i for i, r in enumerate(table) if any(c.strip() for c in r)), None)
+_UNSAVED_FORMULA_MARK = "\x00unsaved-formula\x00"  # cannot come from a cell: XML forbids NUL
+
+
+def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits) -> RawSubmission:
+    source = raw.source
+    start = None
+    for i, r in enumerate(table[:_HEADER_SEARCH_ROWS]):
+        names = [c.strip().lower() for c in r]
+        if all(col in names for col in REQUIRED_COLUMNS):
+            start = i
+            break
     if start is None:
-        return RawSubmission(source, error="the file has no rows")
-    header = [c.strip().lower() for c in table[start]]
-    missing = [c for c in REQUIRED_COLUMNS if c not in header]
-    if missing:
-        found = ", ".join(h for h in header if h) or "nothing"
+        first = next((r for r in table if any(c.strip() for c in r)), None)
+        if first is None:
+            return RawSubmission(source, error="the file has no rows")
+        found = ", ".join(c.strip() for c in first if c.strip())[:200] or "nothing"
+        if PurePosixPath(source).suffix.lower() == ".txt":
+            return RawSubmission(source, error="not a CSV or XLSX submission: a text file with no header row "
+                                               f"of {', '.join(COLUMNS)}")
         return RawSubmission(
             source,
             error=f"wrong columns: expected a header row with {', '.join(COLUMNS)}; found {found}",
         )
+    header = [c.strip().lower() for c in table[start]]
     index = {name: header.index(name) for name in COLUMNS if name in header}
-    body = table[start + 1 :]
+    body = table[start + 1:]
     if len(body) > limits.max_rows:
-        return RawSubmission(source, error=f"too many rows ({len(body)}; the cap is {limits.max_rows})")
+        return RawSubmission(source, error=f"too many rows (over {limits.max_rows}, the cap)")
     columns = [index.get(name) for name in COLUMNS]  # part, item, value, unit, note (None: column absent)
     rows = []
     for offset, cells in enumerate(body):
         if not any(c.strip() for c in cells):
             continue
-        part, item, value, unit, note = (cells[j].strip() if j is not None and j < len(cells) else "" for j in columns)
-        rows.append(Row(start + offset + 2, part.lower(), item, value, unit, note))
-    return RawSubmission(source, rows=rows)
+        texts = [cells[j] if j is not None and j < len(cells) else "" for j in columns]
+        issue = ""
+        if _UNSAVED_FORMULA_MARK in texts:
+            issue = _UNSAVED_FORMULA
+            texts = ["" if t == _UNSAVED_FORMULA_MARK else t for t in texts]
+        part, item, value, unit, note = (t.strip() for t in texts)
+        rows.append(Row(start + offset + 2, part.lower(), item, value, unit, note, issue))
+    raw.rows = rows
+    return raw
 
 
 def read_roster(path: str | Path) -> list[dict[str, str]]:

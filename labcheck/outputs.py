@@ -10,6 +10,9 @@ from __future__ import annotations
 import csv
 import json
 import math
+import os
+import re
+from datetime import datetime, timezone
 from pathlib import Path
 from typing import IO
 
@@ -18,17 +21,40 @@ from .spec import LabSpec
 __all__ = ["neutralise_cell", "ResultsWriter", "write_gradebook", "gradebook_columns"]
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "\uff1d", "\uff0b", "\uff0d", "\uff20")
+# A formula character just after a separator a spreadsheet may split on (comma, semicolon, tab, bar,
+# line break), with spaces or a quote between: the cell would start a formula once split there.
+_AFTER_SEPARATOR = re.compile("([,;\t|\r\n][\\s\"']*)(?=[=+\\-@\uff1d\uff0b\uff0d\uff20])")
 
 
 def neutralise_cell(text) -> str:
-    """Make a text cell inert in a spreadsheet.
+    """Make a text cell inert in a spreadsheet (OWASP's CSV-injection guidance).
 
-    A cell that starts with ``= + - @`` (or their full-width forms), a tab
-    or a line break can be read as a formula by spreadsheet programs; it gets
-    a leading apostrophe, which spreadsheets show as plain text.
+    A cell that starts with ``= + - @`` (or their full-width forms), a tab or a
+    line break can be read as a formula; it gets a leading apostrophe, which
+    spreadsheets show as plain text.  So does every such character that
+    follows a separator inside the cell (``x;=1+1``), in case a program splits
+    the cell there.  Every cell is also written quoted (:func:`write_gradebook`).
     """
     s = "" if text is None else str(text)
+    s = _AFTER_SEPARATOR.sub(r"\1'", s)
     return "'" + s if s.startswith(_FORMULA_START) else s
+
+
+def run_time() -> datetime:
+    """The time a run states in its outputs: now, or ``SOURCE_DATE_EPOCH`` when set.
+
+    ``SOURCE_DATE_EPOCH`` (the reproducible-builds convention) lets two runs
+    on the same inputs be compared byte for byte.
+    """
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    if epoch.isdigit():
+        return datetime.fromtimestamp(int(epoch), timezone.utc)
+    return datetime.now(timezone.utc)
+
+
+def record_json(record: dict) -> str:
+    """One record as JSON text.  Raises ValueError if a non-finite number reached it (a labcheck bug)."""
+    return json.dumps(record, ensure_ascii=False, allow_nan=False, default=_jsonable)
 
 
 class ResultsWriter:
@@ -42,18 +68,29 @@ class ResultsWriter:
         self._fh.write(body[:-2] + ',\n "submissions": [\n')
         self._first = True
 
-    def add(self, record: dict) -> None:
+    def add(self, record: dict | str) -> None:
+        """Append a record (a dict, or its text from :func:`record_json`)."""
         if not self._first:
             self._fh.write(",\n")
-        self._fh.write(json.dumps(record, ensure_ascii=False, allow_nan=False, default=_jsonable))
+        self._fh.write(record if isinstance(record, str) else record_json(record))
         self._first = False
 
     def close(self, tail: dict | None = None) -> None:
+        """Finish the file; ``tail`` keys follow the records, and the last of them should be the completion record."""
         self._fh.write("\n ]")
         for key, value in (tail or {}).items():
             self._fh.write(f",\n {json.dumps(key)}: {json.dumps(value, ensure_ascii=False, default=_jsonable)}")
         self._fh.write("\n}\n")
+        self._fh.flush()
+        os.fsync(self._fh.fileno())
         self._fh.close()
+
+    def abandon(self) -> None:
+        """Close without finishing (the run failed); the file never claims completion."""
+        try:
+            self._fh.close()
+        except OSError:
+            pass
 
 
 def _jsonable(value):
@@ -99,7 +136,9 @@ def gradebook_row(record: dict, spec: LabSpec) -> list:
 def write_gradebook(path: Path, spec: LabSpec, rows: list[list]) -> None:
     """Write the gradebook: one row per student on the roster or submission file."""
     with open(path, "w", encoding="utf-8", newline="") as fh:
-        writer = csv.writer(fh)
+        writer = csv.writer(fh, quoting=csv.QUOTE_ALL)
         writer.writerow(gradebook_columns(spec))
         for row in rows:
             writer.writerow(["" if v is None else v for v in row])
+        fh.flush()
+        os.fsync(fh.fileno())

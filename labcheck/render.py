@@ -8,7 +8,6 @@ errors (StrictUndefined), not silent blanks.
 from __future__ import annotations
 
 import math
-from datetime import datetime, timezone
 
 import jinja2
 from markupsafe import Markup
@@ -16,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from . import __version__
+from .outputs import run_time
 from .resources import templates_dir
 from .spec import LabSpec
 from .units import format_fixed, from_si, to_si
@@ -27,6 +27,15 @@ VERDICT_WORDS = {
     "carried": "carried forward",
     "wrong": "wrong",
     "missing": "missing",
+}
+
+# Every status a record can have, as the section summary names it.
+STATUS_WORDS = {
+    "graded": "graded",
+    "unreadable": "unreadable",
+    "wrong_lab": "another lab's template",
+    "error": "labcheck failed (see labcheck-errors.log)",
+    "missing": "no submission",
 }
 
 ADVISORY = (
@@ -67,7 +76,7 @@ class Renderer:
         self.section_template = self.env.get_template("section.html")
         # Our own stylesheet, not student data: marked safe so quotes survive inside <style>.
         self.css = Markup((templates_dir() / "style.css").read_text(encoding="utf-8"))
-        self.generated = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
+        self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
 
     # ----------------------------------------------------------------- sheet
     def sheet(self, record: dict) -> str:
@@ -135,6 +144,7 @@ class Renderer:
             percent=f"{pct:.0f} %",
             methods=methods,
             flags=record["flags"],
+            reading=record.get("reading", []),
             notes=record["notes"],
             advisory=ADVISORY,
             quality_score=(f"{_points(record['quality_score']['points'])} / {_points(record['quality_score']['max_points'])} "
@@ -166,7 +176,7 @@ class Renderer:
         """Render section.html from the slim per-submission summaries kept by the batch."""
         spec = self.spec
         graded = [s for s in summaries if s["status"] == "graded"]
-        unreadable = [s for s in summaries if s["status"] == "unreadable"]
+        unreadable = [s for s in summaries if s["status"] not in ("graded", "missing")]  # unreadable, wrong_lab, error
         missing = [s for s in summaries if s["status"] == "missing"]
         percents = [100.0 * s["score"] / s["max_score"] for s in graded if s["max_score"]]
         pass_pct = 100.0 * spec.pass_fraction
@@ -207,7 +217,8 @@ class Renderer:
             histogram=histogram,
             step_rows=step_rows,
             radius_plot=radius_plot,
-            unreadable=[{"submission": s["submission"], "error": s["error"]} for s in unreadable],
+            unreadable=[{"submission": s["submission"], "error": s["error"], "status": STATUS_WORDS[s["status"]]}
+                        for s in unreadable],
             missing=[{"student_id": s["student_id"], "name": s["name"]} for s in missing],
             unmatched=[s for s in students if s["unmatched"]],
             skipped=skipped,

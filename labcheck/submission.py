@@ -11,7 +11,7 @@ from dataclasses import dataclass, field
 
 from .ingest import RawSubmission, Row
 from .spec import LabSpec
-from .units import UnitError, canonical_unit, format_value, looks_dms, parse_value
+from .units import UnitError, decimal_convention, format_value, read_value
 
 __all__ = ["IDENTITY_FIELDS", "ItemSpec", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
 
@@ -60,7 +60,11 @@ class Submission:
     results: dict[str, Reading] = field(default_factory=dict)  # key: public step key
     problems: list[Problem] = field(default_factory=list)
     notes: list[dict] = field(default_factory=list)  # {"row", "item", "note"}
+    reading: list[dict] = field(default_factory=list)  # how a file or value was read: {"row", "item", "value", "message"}
+    decimal: str | None = None  # the file's decimal mark, judged from all its numbers
     bad_items: set[str] = field(default_factory=set)  # items with at least one unreadable row
+    unknown_items: list[str] = field(default_factory=list)  # observation and result items this lab does not have
+    known_rows: int = 0  # observation and result rows whose item this lab has
 
 
 @dataclass(frozen=True)
@@ -119,6 +123,9 @@ def normalise(raw: RawSubmission, spec: LabSpec, obs_keys=None, res_keys=None) -
     obs_keys = obs_keys if obs_keys is not None else observation_keys(spec)
     res_keys = res_keys if res_keys is not None else result_keys(spec)
     sub = Submission(raw.source)
+    sub.reading = [{"row": None, "item": "", "value": "", "message": n} for n in raw.notes]
+    sub.decimal = decimal_convention(
+        (r.value for r in raw.rows if _PARTS.get(r.part) in ("observation", "result")), raw.decimal_hint)
     ambiguous = {
         rule.step.id for rule in spec.steps.values() if rule.key != rule.step.id
     }
@@ -127,6 +134,10 @@ def normalise(raw: RawSubmission, spec: LabSpec, obs_keys=None, res_keys=None) -
             sub.notes.append({"row": row.number, "item": row.item, "note": row.note})
         part = _PARTS.get(row.part)
         item = row.item.strip()
+        if row.issue:
+            sub.problems.append(Problem(row.number, item, row.value, row.issue))
+            sub.bad_items.add(item)
+            continue
         if part is None:
             sub.problems.append(
                 Problem(row.number, item, row.value, f"unknown part {row.part!r}; expected identity, observation or result")
@@ -141,13 +152,12 @@ def normalise(raw: RawSubmission, spec: LabSpec, obs_keys=None, res_keys=None) -
     return sub
 
 
-def _unit_for(row: Row, kind: str, template_unit: str) -> str:
-    """The row's unit; a blank unit means the template's, except that a D M S angle is read as D M S."""
-    if row.unit:
-        return canonical_unit(row.unit)
-    if kind == "angle" and looks_dms(row.value):
-        return "dms"
-    return template_unit
+def _read(sub: Submission, row: Row, item: str, kind: str, template_unit: str, **options) -> tuple[float, str]:
+    """A row's value in SI and the unit it was read in; a note on how it was read goes to ``sub.reading``."""
+    si, unit, note = read_value(row.value, row.unit, kind, template_unit, decimal=sub.decimal, **options)
+    if note:
+        sub.reading.append({"row": row.number, "item": item, "value": row.value, "message": note})
+    return si, unit
 
 
 def _identity(sub: Submission, row: Row, item: str) -> None:
@@ -166,7 +176,9 @@ def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
         sub.problems.append(
             Problem(row.number, item, row.value, "unknown observation; it is kept here but not used")
         )
+        sub.unknown_items.append(item)
         return
+    sub.known_rows += 1
     if not row.value:
         return  # a blank template row
     spec_item: ItemSpec = obs_keys[item]
@@ -175,8 +187,7 @@ def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
             unit = ""
             si = _parse_choice(row.value, spec_item.choices)
         else:
-            unit = _unit_for(row, spec_item.kind, spec_item.unit)
-            si = float(parse_value(row.value, unit, spec_item.kind, hemisphere=spec_item.hemisphere))
+            si, unit = _read(sub, row, item, spec_item.kind, spec_item.unit, hemisphere=spec_item.hemisphere)
     except UnitError as exc:
         sub.problems.append(Problem(row.number, item, row.value, str(exc)))
         sub.bad_items.add(item)
@@ -209,14 +220,15 @@ def _result(sub: Submission, row: Row, item: str, res_keys, ambiguous, spec: Lab
         else:
             msg = f"unknown result; expected one of {', '.join(spec.steps)}"
         sub.problems.append(Problem(row.number, item, row.value, msg))
+        sub.unknown_items.append(item)
         return
+    sub.known_rows += 1
     if not row.value:
         return
     key = res_keys[item]
     rule = spec.steps[key[: -len("_sigma")] if key.endswith("_sigma") and key not in spec.steps else key]
-    unit = _unit_for(row, rule.step.kind, rule.unit)
     try:
-        si = float(parse_value(row.value, unit, rule.step.kind))
+        si, unit = _read(sub, row, item, rule.step.kind, rule.unit, one_to_n="1:N" in rule.step.label)
     except UnitError as exc:
         sub.problems.append(Problem(row.number, item, row.value, str(exc)))
         sub.bad_items.add(key)

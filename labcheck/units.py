@@ -35,6 +35,9 @@ __all__ = [
     "looks_dms",
     "parse_quantity",
     "parse_value",
+    "read_value",
+    "decimal_convention",
+    "dms_is_unambiguous",
     "format_value",
     "format_fixed",
 ]
@@ -178,13 +181,85 @@ def from_si(value_si: float, unit: str, kind: str) -> float:
 
 
 _NUMBER_RE = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+_EXPONENT_RE = re.compile(r"[eE][+-]?\d+$")
+_GROUPS_RE = {",": re.compile(r"^[1-9]\d{0,2}(,\d{3})+$"), ".": re.compile(r"^[1-9]\d{0,2}(\.\d{3})+$")}
+# Thin, narrow no-break and no-break spaces between digit groups (as typeset and as some locales export).
+_GROUP_SPACE_RE = re.compile(r"(?<=\d)[\u2009\u202f\u00a0](?=\d{3}(?:\D|$))")
 
 
-def parse_number(text: str) -> float:
-    """A plain decimal number; a decimal comma is accepted when it is the only separator."""
-    s = str(text).strip().replace("\u2212", "-")  # typographic minus
-    if s.count(",") == 1 and "." not in s:
-        s = s.replace(",", ".")
+def _mark_evidence(body: str) -> str | None:
+    """Which decimal mark a number written this way must use ('.' or ','), or None when it cannot tell."""
+    if "," in body and "." in body:
+        return "." if body.rfind(".") > body.rfind(",") else ","
+    for mark, other in ((",", "."), (".", ",")):
+        if mark in body:
+            whole = body.split("e")[0].split("E")[0]
+            if whole.count(mark) > 1:
+                return other if _GROUPS_RE[mark].match(whole) else None
+            if _GROUPS_RE[mark].match(whole):
+                return None  # 7,325 or 7.325: thousands or decimals, the number alone cannot say
+            return mark
+    return None
+
+
+def decimal_convention(texts, hint: str | None = None) -> str | None:
+    """The decimal mark a file's numbers use, judged from all of them: '.', ',' or None (unknown or mixed).
+
+    Evidence is a number that can only be read one way: ``12,5`` or ``0,037`` (a decimal comma),
+    ``12.5`` or ``6,373.0`` (a decimal point), ``1,234,567`` (commas group thousands, so the point
+    is the decimal mark).  ``hint`` (``','`` for a ``;``-separated file, as decimal-comma locales
+    export) decides only when the numbers give no evidence.
+    """
+    seen = set()
+    for t in texts:
+        m = re.match(r"\s*[+-]?(\d[\d.,]*(?:[eE][+-]?\d+)?)", str(t))
+        if m:
+            mark = _mark_evidence(m.group(1))
+            if mark:
+                seen.add(mark)
+    if len(seen) == 1:
+        return seen.pop()
+    return hint if not seen else None
+
+
+def parse_number(text: str, decimal: str | None = None) -> float:
+    """A decimal number as people write it.
+
+    ``decimal`` is the file's decimal mark (see :func:`decimal_convention`), or None when unknown.
+    Thousands separators are read when their grouping is unmistakable (``6,373.0``,
+    ``1.234,5``, ``1,234,567``, thin spaces); a decimal comma is read when it cannot be a
+    thousands separator (``12,5``); ``7,325`` is read by the file's convention and refused when
+    that is unknown.  ``7.325`` is a decimal point unless the file writes decimal commas.
+    """
+    s = _GROUP_SPACE_RE.sub("", str(text).strip().replace("\u2212", "-"))
+    sign = ""
+    if s[:1] in "+-":
+        sign, s = s[0], s[1:]
+    exp = _EXPONENT_RE.search(s)
+    body, tail = (s[: exp.start()], exp.group()) if exp else (s, "")
+    if "," in body or body.count(".") > 1 or (decimal == "," and "." in body):
+        mark = _mark_evidence(body)
+        if mark is None and body.count(",") + body.count(".") == 1:
+            mark = decimal if "," in body else None  # 7.325 in a decimal-comma file is not read as 7325
+            if mark is None:
+                alt = body.replace(",", "").replace(".", "")
+                if "," in body:
+                    raise UnitError(
+                        f"{text!r} is ambiguous: {alt} with a thousands separator, or {body.replace(',', '.')} with a "
+                        f"decimal comma? Write {alt}, or {body.replace(',', '.')} with a decimal point"
+                    )
+                raise UnitError(
+                    f"{text!r} is ambiguous in a file that writes decimal commas: {alt}, or {body}? "
+                    f"Write {alt}, or {body.replace('.', ',')} as in your other numbers"
+                )
+        if mark is None:
+            raise UnitError(f"expected a number, got {text!r}")
+        group = "," if mark == "." else "."
+        whole, _, frac = body.rpartition(mark) if mark in body else (body, "", "")
+        if group in whole and not _GROUPS_RE[group].match(whole):
+            raise UnitError(f"expected a number, got {text!r} (the digit groups are not in threes)")
+        body = whole.replace(group, "") + ("." + frac if frac or mark in body else "")
+    s = sign + body + tail
     if not _NUMBER_RE.match(s):
         raise UnitError(f"expected a number, got {text!r}")
     value = float(s)
@@ -200,7 +275,7 @@ _DMS_SYMBOL_RE = re.compile(
         (?:(?P<d>\d+(?:\.\d*)?)\s*[°ºd]\s*)?
         (?:(?P<m>\d+(?:\.\d*)?)\s*(?:['′’]|m(?!s))\s*)?
         (?:(?P<s>\d+(?:\.\d*)?)\s*(?:["″”]|''|′′|s)\s*)?$""",
-    re.VERBOSE,
+    re.VERBOSE | re.IGNORECASE,
 )
 _HEMI = {"N": 1, "E": 1, "S": -1, "W": -1}
 
@@ -218,17 +293,14 @@ def parse_dms_deg(text: str, *, hemisphere: bool = False) -> float:
     original = text
     s = str(text).strip().replace("\u2212", "-")
     hemi_sign = 1
-    if hemisphere and s and s[-1].upper() in _HEMI:
-        hemi_sign = _HEMI[s[-1].upper()]
-        s = s[:-1].strip()
-    elif hemisphere and s and s[0].upper() in _HEMI:
-        hemi_sign = _HEMI[s[0].upper()]
-        s = s[1:].strip()
+    if hemisphere:
+        s, hemi_sign = _strip_hemisphere(s)
+    hemi_letter = hemisphere and s != str(text).strip().replace("\u2212", "-")
     if not s:
         raise UnitError(f"expected an angle, got {original!r}")
 
     m = _DMS_SYMBOL_RE.match(s)
-    if m and any(m.group(g) for g in ("d", "m", "s")) and any(c in s for c in "°º'′’\"″”dms"):
+    if m and any(m.group(g) for g in ("d", "m", "s")) and any(c in s.lower() for c in "°º'′’\"″”dms"):
         sign = -1 if m.group("sign") == "-" else 1
         parts = [m.group("d"), m.group("m"), m.group("s")]
     else:
@@ -238,7 +310,8 @@ def parse_dms_deg(text: str, *, hemisphere: bool = False) -> float:
             sign = -1 if body[0] == "-" else 1
             body = body[1:].strip()
         pieces = re.split(r"[\s:]+", body)
-        if not 2 <= len(pieces) <= 3 or not all(re.fullmatch(r"\d+(\.\d*)?", p) for p in pieces):
+        lone = hemi_letter and len(pieces) == 1  # 25.4N: decimal degrees with a hemisphere letter
+        if not (2 <= len(pieces) <= 3 or lone) or not all(re.fullmatch(r"\d+(\.\d*)?", p) for p in pieces):
             raise UnitError(
                 f"expected an angle in degrees or as D M S (e.g. 0°11'20\" or 0 11 20), got {original!r}"
             )
@@ -259,40 +332,131 @@ def parse_dms_deg(text: str, *, hemisphere: bool = False) -> float:
         raise UnitError(f"seconds must be below 60 in a D M S angle, got {original!r}")
     if hemi_sign < 0 and sign < 0:
         raise UnitError(f"an angle takes a minus sign or an S/W letter, not both: {original!r}")
-    return sign * hemi_sign * (deg + minutes / 60.0 + seconds / 3600.0)
+    value = sign * hemi_sign * (deg + minutes / 60.0 + seconds / 3600.0)
+    if not math.isfinite(value) or abs(value) > 1e6:
+        raise UnitError(f"expected an angle, got {original!r} (far too large)")
+    return value
 
 
-def looks_dms(s: str) -> bool:
-    """True when ``s`` is written as D M S (symbols, or two or three numbers separated by spaces or colons)."""
-    return bool(re.search(r"[°º'′’\"″”]", s)) or bool(
-        re.fullmatch(r"[+-]?\s*\d+(\.\d*)?([\s:]+\d+(\.\d*)?){1,2}\s*[NSEWnsew]?", s.strip())
-    )
+_DMS_LETTERS_RE = re.compile(
+    r"[+-]?\s*(\d+(\.\d*)?\s*d(\s*\d+(\.\d*)?\s*m)?(\s*\d+(\.\d*)?\s*s)?|\d+(\.\d*)?\s*m\s*\d+(\.\d*)?\s*s)",
+    re.IGNORECASE,
+)
+_DMS_SPACED_RE = re.compile(r"[+-]?\s*\d+(\.\d*)?([\s:]+\d+(\.\d*)?){1,2}")
 
 
-def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False) -> float:
-    """Parse ``text`` written in ``unit`` and return it in SI for ``kind``.
+def _strip_hemisphere(s: str) -> tuple[str, int]:
+    """``s`` without a N/S/E/W letter before or after it, and the letter's sign.
 
-    Angles written as DMS strings are read as degrees whatever the unit
-    column says, except that a DMS string with a unit other than ``deg`` or
-    ``dms`` is an error (it would be ambiguous).
+    A trailing ``s`` that belongs to ``12d34m56s`` is seconds, not south.
     """
-    s = str(text).strip()
+    s = s.strip()
+    if s[-1:].upper() in _HEMI and not s[-2:-1].isalpha() and not _DMS_LETTERS_RE.fullmatch(s):
+        return s[:-1].strip(), _HEMI[s[-1].upper()]
+    if s[:1].upper() in _HEMI and not s[1:2].isalpha():
+        return s[1:].strip(), _HEMI[s[0].upper()]
+    return s, 1
+
+
+def looks_dms(s: str, hemisphere: bool = True) -> bool:
+    """True when ``s`` is written as D M S: symbols (``0°11'20"``), letters (``0d 6m 18s``), or two or
+    three numbers separated by spaces or colons; with ``hemisphere``, a N/S/E/W letter may stand before or after."""
+    t = _strip_hemisphere(s)[0] if hemisphere else s.strip()
+    return bool(re.search(r"[°º'′’\"″”]", t)) or bool(_DMS_LETTERS_RE.fullmatch(t)) or bool(_DMS_SPACED_RE.fullmatch(t))
+
+
+def dms_is_unambiguous(s: str) -> bool:
+    """A D M S form that cannot be a plain number in another angle unit: symbols, letters, or three numbers."""
+    t = _strip_hemisphere(s)[0]
+    if re.search(r"[°º'′’\"″”]", t) or _DMS_LETTERS_RE.fullmatch(t):
+        return True
+    return len(re.split(r"[\s:]+", t.lstrip("+-").strip())) == 3
+
+
+def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False, decimal: str | None = None) -> float:
+    """Parse ``text`` written in ``unit`` and return it in SI for ``kind`` (see :func:`read_value`)."""
+    return read_value(text, unit, kind, unit, hemisphere=hemisphere, decimal=decimal)[0]
+
+
+# A number followed by a unit typed in the same cell: "41ft", "25 km", "0.03%", "12.8 °C".
+_VALUE_UNIT_RE = re.compile(r"^(?P<num>[+-]?[\d.,\u2009\u202f\u00a0]*\d(?:[eE][+-]?\d+)?)\s*(?P<unit>[^\d\s].*?)\s*$")
+_PLAIN_NUMBER_RE = re.compile(r"^[+-]?[\d.,\u2009\u202f\u00a0]*\d[\d.,]*(?:[eE][+-]?\d+)?$|^[+-]?[\d.,]*\.\d+$")
+_ONE_TO_N_RE = re.compile(r"^1\s*:\s*(?P<n>[\d.,\u2009\u202f\u00a0]+)$")
+
+
+def read_value(
+    text: str,
+    unit_cell: str,
+    kind: str,
+    template_unit: str,
+    *,
+    hemisphere: bool = False,
+    decimal: str | None = None,
+    one_to_n: bool = False,
+) -> tuple[float, str, str | None]:
+    """Read a value as a student wrote it: ``(SI value, unit used, note or None)``.
+
+    * ``unit_cell`` is the row's unit column (as written, maybe pre-filled by the template);
+      blank means ``template_unit``.
+    * A unit typed in the value cell (``41ft``, ``25 km``, ``0.03%``) is used when the unit
+      cell is blank or names the same unit, and refused, naming both, when they differ.
+    * Angles in D M S (symbols, ``12d34m56s``, ``0 6 20``; with ``hemisphere`` a N/S/E/W letter
+      before or after) are read as D M S.  Under another angle unit (the template's ``arcmin``,
+      say) an unambiguous form (symbols, letters, three numbers) is read as D M S with a note;
+      two bare numbers are refused, since ``6 20`` could mean either.
+    * ``one_to_n``: a ratio may be written ``1:N`` (a precision), read as N.
+    * ``decimal`` is the file's decimal mark (see :func:`parse_number`).
+
+    Raises :class:`UnitError` saying what to write instead; never returns a non-finite value.
+    """
+    s = str(text).strip().replace("\u2212", "-")
     if not s:
         raise UnitError("the value is blank")
-    if kind == "angle":
-        u = _check_unit(unit, kind)
-        if looks_dms(s) or (hemisphere and s[-1:].upper() in _HEMI):
-            if u not in ("deg", "dms"):
-                raise UnitError(
-                    f"a D M S angle {text!r} needs the unit deg or dms, not {unit!r}"
-                )
-            return parse_dms_deg(s, hemisphere=hemisphere) * _ANGLE["deg"]
-        return to_si(parse_number(s), u, kind)
+    column = _canonical(unit_cell) if str(unit_cell).strip() else None
     if kind == "datetime":
-        return parse_datetime(s)
-    if kind in UNITS:
-        return to_si(parse_number(s), unit, kind)
-    raise UnitError(f"cannot parse a value of kind {kind!r}")
+        return parse_datetime(s), "", None
+    note = None
+    if kind == "angle" and looks_dms(s, hemisphere):
+        if column is not None and column not in ("deg", "dms"):
+            _check_unit(column, kind)
+            if not dms_is_unambiguous(s):
+                raise UnitError(
+                    f"{text!r} could be D M S or two numbers; the unit column says {unit_cell!r}. Write D M S with "
+                    f"three numbers (0 6 20) or symbols (0°6'20\"), or one decimal number of {unit_cell}"
+                )
+            same = (column == "arcmin" and re.fullmatch(r"[+-]?\d+(\.\d*)?\s*['′’m]", s, re.I)) or (
+                column == "arcsec" and re.fullmatch(r"[+-]?\d+(\.\d*)?\s*([\"″”s]|'')", s, re.I))
+            if not same:
+                note = f"read as D M S (degrees, minutes, seconds) although the unit column says {unit_cell}"
+        return parse_dms_deg(s, hemisphere=hemisphere) * _ANGLE["deg"], "dms", note
+    if kind == "angle" and hemisphere and _strip_hemisphere(s)[0] != s:  # 25.4N
+        return parse_dms_deg(s, hemisphere=True) * _ANGLE["deg"], "deg", None
+    if kind not in UNITS:
+        raise UnitError(f"cannot parse a value of kind {kind!r}")
+    number = s
+    unit = column or template_unit
+    m = None if _PLAIN_NUMBER_RE.match(s) or _ONE_TO_N_RE.match(s) else _VALUE_UNIT_RE.match(s)
+    if m:
+        typed = m.group("unit")
+        typed_c = _canonical(typed)
+        if typed_c not in UNITS[kind]:
+            if re.fullmatch(r"[eE][+-]?", typed):
+                raise UnitError(f"expected a number, got {text!r}")
+            raise UnitError(f"{text!r}: {typed!r} is not a {kind.replace('_', ' ')} unit "
+                            f"(expected one of {', '.join(sorted(UNITS[kind]))})")
+        if column is not None and column != typed_c:
+            raise UnitError(f"{text!r} says {typed!r} but the unit column says {unit_cell!r}: "
+                            "write the unit in one place, or make them agree")
+        number, unit = m.group("num"), typed_c
+    if one_to_n:
+        ratio = _ONE_TO_N_RE.match(number)
+        if ratio:
+            number = ratio.group("n")
+    value = parse_number(number, decimal)
+    si = to_si(value, unit, kind)
+    if not math.isfinite(si):
+        raise UnitError(f"{text!r} {unit} is too large to be a measurement")
+    return si, unit, note
 
 
 def parse_datetime(text: str) -> float:
@@ -311,7 +475,12 @@ def parse_datetime(text: str) -> float:
         raise UnitError(f"expected a date and time such as 2026-09-21T12:47:30+01:00, got {text!r}") from None
     if when.tzinfo is None:
         raise UnitError(f"the time {text!r} needs its UTC offset, e.g. +01:00, or Z for UTC")
-    return when.timestamp()
+    if not 1900 <= when.year <= 2100:
+        raise UnitError(f"the date {text!r} is outside the years 1900 to 2100 that labcheck's sun covers")
+    try:
+        return when.timestamp()
+    except (OverflowError, ValueError):
+        raise UnitError(f"cannot use the date {text!r}") from None
 
 
 _QTY_RE = re.compile(r"^\s*(?P<num>[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?)\s*(?P<unit>.*?)\s*$")

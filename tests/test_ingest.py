@@ -35,8 +35,8 @@ def test_semicolon_csv_and_bom_and_row_numbers():
     [
         (b"", "e.csv", "the file is empty"),
         (b"\x00\x01\x02binary\x00", "b.csv", "binary data"),
-        ("part,item,value\nobservation,eye_height,12\n".encode("utf-16"), "u.csv", "binary data"),
-        (b"part,item,value\nobservation,eye_height,12\xff\n", "l.csv", "not UTF-8"),
+        ("part,item,value\nobservation,eye_height,12\n".encode("utf-16-le"), "u.csv", "binary data"),  # no BOM
+        (b"part,item,value\nobservation,eye_height,12\x81\n", "l.csv", "neither UTF-8 nor Windows-1252"),
         (b"name,score\nAda,10\n", "w.csv", "wrong columns: expected a header row with part, item, value"),
         (b"PK\x03\x04garbage", "z.csv", "rename it to .xlsx"),
         (b"not a workbook", "x.xlsx", "not a valid XLSX workbook"),

@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from labcheck.units import UnitError, from_si, parse_dms_deg, parse_number, parse_quantity, parse_value, to_si
+from labcheck.units import read_value, UnitError, from_si, parse_dms_deg, parse_number, parse_quantity, parse_value, to_si
 
 
 @pytest.mark.parametrize(
@@ -94,9 +94,13 @@ def test_angle_units_to_radians():
     assert parse_value("100", "gon", "angle") == pytest.approx(math.pi / 2, rel=1e-15)  # 400 gon = full circle
 
 
-def test_dms_with_a_non_degree_unit_is_refused():
-    with pytest.raises(UnitError, match="needs the unit deg or dms"):
-        parse_value("0 05 30", "arcmin", "angle")
+def test_unambiguous_dms_under_a_non_degree_unit_is_read_as_dms_with_a_note():
+    # The template pre-fills `arcmin`; a student writing three numbers meant D M S (issue 8).
+    si, unit, note = read_value("0 05 30", "arcmin", "angle", "arcmin")
+    assert si == pytest.approx(math.radians(5.5 / 60), rel=1e-15) and unit == "dms"
+    assert "read as D M S" in note and "arcmin" in note
+    with pytest.raises(UnitError, match="could be D M S or two numbers"):
+        parse_value("5 30", "arcmin", "angle")
 
 
 def test_unknown_unit_names_the_choices():
