@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import hashlib
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -188,7 +189,32 @@ def _parse_tolerance(text, kind: str) -> Tolerance:
             raise UnitError(
                 f'this step is itself in percent: write an absolute tolerance in percentage points, e.g. "0.1 pp", got {text!r}'
             )
+        if number > 100:
+            raise UnitError(f"a relative tolerance above 100 % accepts any value; got {text!r}")
         return Tolerance(text, relative=number / 100.0)
+    tol = _parse_absolute_tolerance(text, number, unit, kind)
+    limit = _TOLERANCE_LIMITS_SI.get(kind)
+    if limit is not None and tol.absolute_si > limit[0]:
+        raise UnitError(f"a {kind} tolerance above {limit[1]} accepts any value; got {text!r}")
+    return tol
+
+
+# Tolerances beyond these accept any plausible value, so they are a typing slip (common practice).
+_TOLERANCE_LIMITS_SI = {
+    "length": (1.0e7, "10,000 km"),
+    "angle": (math.pi / 2, "90 deg"),
+    "percent": (100.0, "100 pp"),
+    "ratio": (1.0e9, "1e9"),
+}
+MAX_MIN_READINGS = 100
+_LAB_ID_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
+
+
+def _finite_number(value) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool) and math.isfinite(value)
+
+
+def _parse_absolute_tolerance(text: str, number: float, unit: str, kind: str) -> Tolerance:
     if kind == "ratio" and unit in ("", "1"):
         return Tolerance(text, absolute_si=number)
     if kind == "percent" and unit == "pp":
@@ -215,7 +241,10 @@ def _parse_constant(text, kind: str, choices: tuple[str, ...] = ()) -> float:
         return number
     if unit not in UNITS.get(kind, {}):
         raise UnitError(f"expected a {kind} with a unit ({', '.join(sorted(UNITS[kind]))}), got {text!r}")
-    return to_si(number, unit, kind)
+    value = to_si(number, unit, kind)
+    if not math.isfinite(value):
+        raise UnitError(f"expected a finite value, got {text!r}")
+    return value
 
 
 class _Checker:
@@ -236,6 +265,9 @@ class _Checker:
         value = table[key]
         if not isinstance(value, types) or isinstance(value, bool) and bool not in _as_tuple(types):
             self.add(full, f"expected {what or _type_name(types)}, got {value!r}")
+            return default
+        if isinstance(value, float) and not math.isfinite(value):
+            self.add(full, f"expected a finite number ({what or _type_name(types)}), got {value!r}")
             return default
         return value
 
@@ -276,6 +308,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add(key, f"unknown key; expected one of {', '.join(sorted(known_top))}")
 
     lab_id = c.get(raw, "id", "", str, what="a lab id string") or ""
+    if lab_id and not _LAB_ID_RE.fullmatch(lab_id):
+        c.add("id", f"expected a snake_case id (lower-case letters, digits and _, starting with a letter; at most "
+                    f"64 characters), got {lab_id!r}")
+        lab_id = ""
     title = c.get(raw, "title", "", str, what="a title string") or ""
     course = c.get(raw, "course", "", str, required=False, default="") or ""
     safety = c.get(raw, "safety", "", str, what="the lab's safety note as a string") or ""
@@ -285,7 +321,9 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     method_ids = c.get(raw, "methods", "", list, what=f"a list of method ids from: {', '.join(METHODS)}") or []
     methods: list[Method] = []
     for i, mid in enumerate(method_ids):
-        if mid not in METHODS:
+        if not isinstance(mid, str):
+            c.add(f"methods[{i}]", f"expected a method id string from: {', '.join(METHODS)}; got {mid!r}")
+        elif mid not in METHODS:
             c.add(f"methods[{i}]", f"unknown method {mid!r}; expected one of {', '.join(METHODS)}")
         elif METHODS[mid] in methods:
             c.add(f"methods[{i}]", f"method {mid!r} is listed twice")
@@ -363,8 +401,8 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             except UnitError as exc:
                 c.add(f"{kp}.sigma", str(exc))
         min_readings = c.get(table, "min_readings", kp, int, required=False, default=1)
-        if isinstance(min_readings, int) and min_readings < 1:
-            c.add(f"{kp}.min_readings", f"expected a whole number of at least 1, got {min_readings}")
+        if isinstance(min_readings, int) and not 1 <= min_readings <= MAX_MIN_READINGS:
+            c.add(f"{kp}.min_readings", f"expected a whole number from 1 to {MAX_MIN_READINGS}, got {min_readings}")
             min_readings = 1
         observations[name] = ObservationRule(name, unit, sigma_si, sigma_text, min_readings)
 
@@ -434,10 +472,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             or not all(isinstance(k, str) for k in reported):
         c.add("uncertainty.reported", f"expected a list of step keys from: {', '.join(expected_keys)}; got {reported!r}")
         reported = []
-    if not isinstance(reported_points, (int, float)) or isinstance(reported_points, bool) or reported_points < 0:
+    if not _finite_number(reported_points) or reported_points < 0:
         c.add("uncertainty.reported_points", f"expected 0 or more points, got {reported_points!r}")
         reported_points = 0
-    if not isinstance(within_factor, (int, float)) or isinstance(within_factor, bool) or within_factor <= 1:
+    if not _finite_number(within_factor) or within_factor <= 1:
         c.add("uncertainty.within_factor", f"expected a number above 1, got {within_factor!r}")
         within_factor = 2.0
     constant_sigma: dict[str, float] = {}
@@ -537,7 +575,7 @@ def _parse_band(text, path: str, c: _Checker, kind: str = "length") -> tuple[flo
         return number, "sigma"
     if unit == "%" and kind != "angle":
         return number / 100.0, "relative"
-    if unit in UNITS.get(kind, {}):
+    if unit in UNITS.get(kind, {}) and math.isfinite(to_si(number, unit, kind)):
         return to_si(number, unit, kind), "absolute"
     example = '"0.5 deg" or "30 arcmin"' if kind == "angle" else '"5 %" or "300 km"'
     c.add(path, f"expected a band in {'an angle unit' if kind == 'angle' else '% or a ' + kind + ' unit'} (e.g. {example}), got {text!r}")
@@ -549,6 +587,9 @@ def _parse_accuracy(acc: dict, c: _Checker, kind: str = "length") -> AccuracyRul
         if k not in ("points", "full_within", "zero_beyond"):
             c.add(f"accuracy.{k}", "unknown key; expected points, full_within or zero_beyond")
     points = c.get(acc, "points", "accuracy", (int, float), what="a number of points (0 or more)", default=0)
+    if points is not None and points < 0:
+        c.add("accuracy.points", f"expected 0 or more points, got {points}")
+        points = 0
     full = _parse_band(acc.get("full_within"), "accuracy.full_within", c, kind) if "full_within" in acc else None
     zero = _parse_band(acc.get("zero_beyond"), "accuracy.zero_beyond", c, kind) if "zero_beyond" in acc else None
     if "full_within" not in acc:

@@ -494,7 +494,10 @@ def parse_quantity(text: str) -> tuple[float, str]:
     m = _QTY_RE.match(str(text))
     if not m:
         raise UnitError(f"expected a number with an optional unit such as \"25 m\", got {text!r}")
-    return float(m.group("num")), _canonical(m.group("unit")) if m.group("unit") else ""
+    number = float(m.group("num"))
+    if not math.isfinite(number):
+        raise UnitError(f"expected a finite number, got {text!r}")
+    return number, _canonical(m.group("unit")) if m.group("unit") else ""
 
 
 def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) -> str:
