@@ -43,7 +43,10 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
         for sid in variance:
             a, b = plus.get(sid), minus.get(sid)
             if a is not None and b is not None and base.get(sid) is not None:
-                variance[sid] += ((a - b) / (2 * h) * sigma) ** 2
+                try:
+                    variance[sid] += ((a - b) / (2 * h) * sigma) ** 2
+                except OverflowError:  # a derivative beyond any float: no finite uncertainty
+                    variance[sid] = math.inf
 
     for name, sigma in obs_sigma.items():
         if name not in obs or not sigma:
@@ -69,4 +72,5 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
         h = sigma * _STEP
         accumulate(evaluate_chain(method, obs, {**consts, name: consts[name] + h}).expected,
                    evaluate_chain(method, obs, {**consts, name: consts[name] - h}).expected, h, sigma)
-    return {sid: (math.sqrt(v) if base.get(sid) is not None else None) for sid, v in variance.items()}
+    return {sid: (math.sqrt(v) if base.get(sid) is not None and math.isfinite(v) else None)
+            for sid, v in variance.items()}

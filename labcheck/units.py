@@ -378,6 +378,10 @@ def parse_value(text: str, unit: str, kind: str, *, hemisphere: bool = False, de
     return read_value(text, unit, kind, unit, hemisphere=hemisphere, decimal=decimal)[0]
 
 
+# No field lab measures anything beyond 1e12 in SI units (a length of a million km, a ratio of 1:10^12);
+# bounding every value here keeps squares and products in the reductions far from overflow.
+MAX_SI_MAGNITUDE = 1e12
+
 # A number followed by a unit typed in the same cell: "41ft", "25 km", "0.03%", "12.8 °C".
 _VALUE_UNIT_RE = re.compile(r"^(?P<num>[+-]?[\d.,\u2009\u202f\u00a0]*\d(?:[eE][+-]?\d+)?)\s*(?P<unit>[^\d\s].*?)\s*$")
 _PLAIN_NUMBER_RE = re.compile(r"^[+-]?[\d.,\u2009\u202f\u00a0]*\d[\d.,]*(?:[eE][+-]?\d+)?$|^[+-]?[\d.,]*\.\d+$")
@@ -428,7 +432,7 @@ def read_value(
                 column == "arcsec" and re.fullmatch(r"[+-]?\d+(\.\d*)?\s*([\"″”s]|'')", s, re.I))
             if not same:
                 note = f"read as D M S (degrees, minutes, seconds) although the unit column says {unit_cell}"
-        return parse_dms_deg(s, hemisphere=hemisphere) * _ANGLE["deg"], "dms", note
+        return parse_dms_deg(s, hemisphere=hemisphere) * _ANGLE["deg"], "dms", note  # bounded by parse_dms_deg
     if kind == "angle" and hemisphere and _strip_hemisphere(s)[0] != s:  # 25.4N
         return parse_dms_deg(s, hemisphere=True) * _ANGLE["deg"], "deg", None
     if kind not in UNITS:
@@ -454,8 +458,8 @@ def read_value(
             number = ratio.group("n")
     value = parse_number(number, decimal)
     si = to_si(value, unit, kind)
-    if not math.isfinite(si):
-        raise UnitError(f"{text!r} {unit} is too large to be a measurement")
+    if not math.isfinite(si) or abs(si) > MAX_SI_MAGNITUDE:
+        raise UnitError(f"{text!r} {unit} is far outside any value a field lab measures")
     return si, unit, note
 
 
@@ -505,9 +509,11 @@ def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) 
 
     Used by the renderers; a template never formats numbers itself.
     """
-    if value_si is None or (isinstance(value_si, float) and math.isnan(value_si)):
+    if value_si is None or not math.isfinite(value_si):
         return "—"
     v = from_si(value_si, unit, kind) if kind in UNITS else value_si
+    if not math.isfinite(v):
+        return "—"
     if v == 0:
         text = "0"
     else:
