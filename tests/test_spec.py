@@ -113,3 +113,54 @@ def test_docs_cover_every_top_level_key():
     text = DOCS.read_text(encoding="utf-8")
     for key in SCHEMA_DOC:
         assert f"`{key}`" in text, f"docs/spec.md does not document {key}"
+
+
+# Each class of malformed spec found by probing (issue 8): refused with its key path, never a traceback.
+MALFORMED = [
+    ("points = inf", ("[steps.dip_mean]\npoints = 2", "[steps.dip_mean]\npoints = inf"),
+     "steps.dip_mean.points", "expected a finite number"),
+    ("points = nan", ("[steps.dip_mean]\npoints = 2", "[steps.dip_mean]\npoints = nan"),
+     "steps.dip_mean.points", "expected a finite number"),
+    ("negative step points", ("[steps.dip_mean]\npoints = 2", "[steps.dip_mean]\npoints = -2"),
+     "steps.dip_mean.points", "expected 0 or more points"),
+    ("negative accuracy points", ("points = 4\nfull_within", "points = -4\nfull_within"), "accuracy.points",
+     "expected 0 or more points"),
+    ("tolerance 1e400", ('tolerance = "0.02 arcmin"', 'tolerance = "1e400 arcmin"'),
+     "steps.dip_mean.tolerance", "expected a finite number"),
+    ("tolerance beyond any use", ('tolerance = "0.02 arcmin"', 'tolerance = "200 deg"'),
+     "steps.dip_mean.tolerance", "accepts any value"),
+    ("relative tolerance over 100 %", ('points = 2\ntolerance = "0.5 %"', 'points = 2\ntolerance = "500 %"'),
+     'steps."dip.radius".tolerance', "accepts any value"),
+    ("within_factor nan", ("[uncertainty]\n", "[uncertainty]\nwithin_factor = nan\n"),
+     "uncertainty.within_factor", "expected a number above 1"),
+    ("reported_points inf", ("[uncertainty]\n", "[uncertainty]\nreported_points = inf\n"),
+     "uncertainty.reported_points", "expected 0 or more points"),
+    ("a method as a table", ('methods = ["dip", "hidden_height"]', 'methods = [{ id = "dip" }, "hidden_height"]'),
+     "methods[0]", "expected a method id string"),
+    ("a method as a list", ('methods = ["dip", "hidden_height"]', 'methods = [["dip"], "hidden_height"]'),
+     "methods[0]", "expected a method id string"),
+    ("id with path characters", ('id = "horizon_dip"', 'id = "../../etc/passwd"'), "id", "snake_case"),
+    ("id with markup", ('id = "horizon_dip"', 'id = "<b>dip</b>"'), "id", "snake_case"),
+    ("min_readings huge", ("min_readings = 5", "min_readings = 1000000000"),
+     "observations.dip_angle.min_readings", "from 1 to 100"),
+]
+
+
+@pytest.mark.parametrize("name, edit, key, message", MALFORMED, ids=[m[0] for m in MALFORMED])
+def test_malformed_specs_are_refused_with_their_key_path(name, edit, key, message):
+    old, new = edit
+    assert old in base(), f"the shipped spec changed: {old!r} not found"
+    err = bad(base().replace(old, new, 1))
+    assert key in [k for k, _ in err.problems], err.problems
+    if message:
+        assert message in dict(err.problems)[key]
+
+
+def test_malformed_spec_on_the_command_line_is_exit_2_without_traceback(tmp_path, capsys):
+    from labcheck.cli import main
+
+    f = tmp_path / "bad.toml"
+    f.write_text(base().replace('methods = ["dip", "hidden_height"]', 'methods = [{ id = "dip" }]'))
+    assert main(["spec", "check", str(f)]) == 2
+    err = capsys.readouterr().err
+    assert "methods[0]" in err and "Traceback" not in err
