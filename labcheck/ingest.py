@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import csv
 import io
+import itertools
 import re
 import struct
 import zipfile
@@ -343,14 +344,19 @@ def _decode(data: bytes, raw: RawSubmission) -> str:
     return text
 
 
-def _split_lines(text: str) -> list[str]:
-    """Physical lines, ending in LF, CRLF or a lone CR (kept, so quoted line breaks survive)."""
-    return re.split(r"(?<=\r\n)|(?<=\n)|(?<=\r)(?!\n)", text)
+def _lines(text: str, limits: Limits) -> Iterator[str]:
+    """Physical lines ending in LF, CRLF or a lone CR (endings kept, so quoted line breaks survive), lazily;
+    a line longer than the cap stops the file."""
+    for number, line in enumerate(io.StringIO(text, newline=""), start=1):
+        if len(line) > limits.max_line_chars:
+            raise _Unreadable(f"line {number} is longer than {limits.max_line_chars} characters; "
+                              "is this a submission template?")
+        yield line
 
 
 def _header_delimiter(lines: list[str], tab_default: bool) -> str:
     """The separator that splits the header row into cells naming part, item and value."""
-    for line in lines[:_HEADER_SEARCH_ROWS]:
+    for line in lines:
         if not line.strip():
             continue
         for delim in _DELIMITERS:
@@ -360,33 +366,33 @@ def _header_delimiter(lines: list[str], tab_default: bool) -> str:
                 return delim
     if tab_default:
         return "\t"
-    first = next((ln for ln in lines[:_HEADER_SEARCH_ROWS] if ln.strip()), "")
+    first = next((ln for ln in lines if ln.strip()), "")
     return max(_DELIMITERS, key=first.count)
 
 
 def _csv_table(data: bytes, limits: Limits, raw: RawSubmission, tab_default: bool) -> list[list[str]]:
+    """Rows of cells, read only as far as the row cap: a 5 MB file of rows costs what its first rows cost."""
     text = _decode(data, raw)
-    lines = _split_lines(text)
+    lines = _lines(text, limits)
+    head = list(itertools.islice(lines, _HEADER_SEARCH_ROWS))
     delim = None
-    first = next((i for i, ln in enumerate(lines) if ln.strip()), None)
+    first = next((i for i, ln in enumerate(head) if ln.strip()), None)
     if first is not None:
-        m = re.fullmatch(r'\s*"?sep=(.)"?\s*', lines[first].rstrip("\r\n"), flags=re.IGNORECASE)
+        m = re.fullmatch(r'\s*"?sep=(.)"?\s*', head[first].rstrip("\r\n"), flags=re.IGNORECASE)
         if m:  # a spreadsheet's "sep=;" line names the separator
             delim = m.group(1)
-            lines[first] = "\n"  # keeps row numbers as a spreadsheet shows them
-    long_line = next((i for i, ln in enumerate(lines) if len(ln) > limits.max_line_chars), None)
-    if long_line is not None:
-        raise _Unreadable(f"line {long_line + 1} is longer than {limits.max_line_chars} characters; "
-                          "is this a submission template?")
-    delim = delim or _header_delimiter(lines, tab_default)
+            head[first] = "\n"  # keeps row numbers as a spreadsheet shows them
+    delim = delim or _header_delimiter(head, tab_default)
     if delim == ";":
         raw.decimal_hint = ","
     table: list[list[str]] = []
+    filled = 0
     try:
-        reader = csv.reader(lines, delimiter=delim, quotechar='"', doublequote=True, strict=False)
+        reader = csv.reader(itertools.chain(head, lines), delimiter=delim, quotechar='"', doublequote=True, strict=False)
         for cells in reader:
             table.append(cells)
-            if len(table) > limits.max_rows + _HEADER_SEARCH_ROWS:
+            filled += any(c.strip() for c in cells)
+            if filled > limits.max_rows + 1:  # the header and one row past the cap: enough to refuse
                 break
     except csv.Error as exc:
         raise _Unreadable(f"malformed CSV ({exc})") from None
@@ -484,9 +490,13 @@ def _find_sheet(sheets) -> tuple[object | None, int]:
 
 def _read_sheet(ws, width: int, limits: Limits) -> list[list[str]]:
     table = []
+    filled = 0
     for row in ws.iter_rows(max_col=width, values_only=True):
-        table.append([_xlsx_cell_text(v) for v in row])
-        if len(table) > limits.max_rows + _HEADER_SEARCH_ROWS:
+        cells = [_xlsx_cell_text(v) for v in row]
+        table.append(cells)
+        filled += any(c.strip() for c in cells)
+        # Stop one row past the cap; blank rows count too, up to a bound (a cell at row 1,048,576).
+        if filled > limits.max_rows + 1 or len(table) > 2 * limits.max_rows + _HEADER_SEARCH_ROWS:
             break
     return table
 
@@ -535,8 +545,12 @@ def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits)
     header = [c.strip().lower() for c in table[start]]
     index = {name: header.index(name) for name in COLUMNS if name in header}
     body = table[start + 1:]
-    if len(body) > limits.max_rows:
+    filled = sum(1 for cells in body if any(c.strip() for c in cells))
+    if filled > limits.max_rows:
         return RawSubmission(source, error=f"too many rows (over {limits.max_rows}, the cap)")
+    if len(body) > 2 * limits.max_rows:
+        return RawSubmission(source, error=f"the sheet runs past row {2 * limits.max_rows} (blank rows included); "
+                                           "delete the stray cells far below the table")
     columns = [index.get(name) for name in COLUMNS]  # part, item, value, unit, note (None: column absent)
     rows = []
     for offset, cells in enumerate(body):
