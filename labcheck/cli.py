@@ -223,10 +223,11 @@ def cmd_demo(args) -> int:
         progress = None if args.quiet else _progress(count_inputs([zip_path]), sys.stderr)
         run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress)
         _print_summary(run, spec, folder / "graded")
-        expected = (len(section.unreadable), 1 if section.missing_student else 0, 0, 0)
+        expected = (len(section.unreadable), 1 if section.missing_student else 0, 1 if section.wrong_lab else 0, 0)
         got = (run.n_unreadable, run.n_missing, run.n_wrong_lab, run.n_errors)
         if got != expected:
-            surprises.append(f"section {section.code}: expected {expected[0]} unreadable and {expected[1]} missing, "
+            surprises.append(f"section {section.code}: expected {expected[0]} unreadable, {expected[1]} missing and "
+                             f"{expected[2]} from another lab's template, "
                              f"got {got[0]} unreadable, {got[1]} missing, {got[2]} wrong-lab, {got[3]} labcheck failures")
             worst = max(worst, EXIT_LABCHECK_FAILED if run.n_errors else EXIT_INCOMPLETE)
         if section.lab == "horizon_dip":
@@ -235,7 +236,8 @@ def cmd_demo(args) -> int:
     if surprises:
         print("The demo did not go as planned:\n  " + "\n  ".join(surprises), file=sys.stderr)
     else:
-        print("The demo ran as planned: its unreadable files and missing students are planted on purpose.")
+        print("The demo ran as planned: its unreadable files, missing students and the file from another lab's "
+              "template are planted on purpose.")
     return worst
 
 

@@ -43,7 +43,8 @@ def test_demo_end_to_end(demo, section):
     roster = list(csv.DictReader(open(folder / "roster.csv", encoding="utf-8")))
     gradebook = list(csv.DictReader(open(graded / "gradebook.csv", encoding="utf-8")))
     # A gradebook row per roster entry, and a sheet per graded group.
-    assert sorted(r["student_id"] for r in gradebook) == sorted(r["student_id"] for r in roster)
+    stray = [section.wrong_lab[0]] if section.wrong_lab else []
+    assert sorted(r["student_id"] for r in gradebook) == sorted([r["student_id"] for r in roster] + stray)
     sheets = sorted(p.stem for p in (graded / "feedback").glob("*.html"))
     assert sheets == sorted(s["student_id"] for s in subs if s["status"] == "graded")
     by_id = {s["student_id"]: s for s in subs}
@@ -61,12 +62,16 @@ def test_demo_end_to_end(demo, section):
     for group in section.unreadable:
         rec = by_id[f"{prefix}{group:03d}"]
         assert rec["status"] == "unreadable" and rec["error"]
+    if section.wrong_lab:
+        rec = by_id[section.wrong_lab[0]]
+        assert rec["status"] == "wrong_lab" and f"looks like the {section.wrong_lab[1]} template" in rec["error"]
     for group, item in section.bad_rows.items():
         assert any(f["item"] == item for f in by_id[f"{prefix}{group:03d}"]["flags"])
     for group, note_id in section.notes.items():
         assert any(q.get("id") == note_id for q in by_id[f"{prefix}{group:03d}"]["quality"])
     # Groups without a planted mistake: every step correct.
     planted = set(section.planted) | section.unreadable | {int(s[-3:]) for _, ids in section.leads for s in ids}
+    planted |= {int(section.wrong_lab[0][-3:])} if section.wrong_lab else set()
     for rec in subs:
         if rec["status"] == "graded" and int(rec["student_id"][-3:]) not in planted:
             assert all(s["verdict"] == "correct" for s in rec["steps"]), rec["student_id"]
@@ -288,3 +293,20 @@ def test_diff_lists_exactly_the_students_a_tolerance_change_moves(tmp_path, caps
     assert out.startswith("1 student(s) changed, 2 unchanged; the lab spec differs")
     assert "s2" in out and "s1 " not in out and "s3" not in out
     assert "dip.radius_apparent" in out and "3.0 -> 0.0 points  correct -> wrong" in out
+
+
+def test_demo_groups_that_write_as_people_do_are_read_right(demo):
+    # The dip section plants honest groups writing a decimal-comma CSV, a D M S reading under the
+    # template's arcmin, and a unit typed in a value cell: all correct, and the D M S read is said.
+    from labcheck.demo import dip
+
+    out, _ = demo
+    by_id = {s["student_id"]: s for s in load(out / "horizon_dip" / "graded")["submissions"]}
+    for group in (dip.SEMICOLON_GROUP, dip.DMS_UNDER_ARCMIN_GROUP, dip.UNIT_IN_VALUE_GROUP):
+        rec = by_id[f"b2150-{group:03d}"]
+        assert rec["status"] == "graded" and not rec["flags"], rec["flags"]
+        assert all(s["verdict"] == "correct" for s in rec["steps"])
+    notes = by_id[f"b2150-{dip.DMS_UNDER_ARCMIN_GROUP:03d}"]["reading"]
+    assert len(notes) == 1 and "read as D M S" in notes[0]["message"] and notes[0]["item"] == "dip_angle"
+    sheet = (out / "horizon_dip" / "graded" / "feedback" / f"b2150-{dip.DMS_UNDER_ARCMIN_GROUP:03d}.html").read_text()
+    assert "How your file was read" in sheet

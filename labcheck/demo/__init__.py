@@ -15,7 +15,7 @@ from pathlib import Path
 from typing import Callable
 
 from . import baselines, dip, zenith
-from .common import DemoGroup, csv_bytes, xlsx_bytes
+from .common import DemoGroup, csv_bytes, semicolon_csv_bytes, xlsx_bytes
 
 __all__ = ["Section", "SECTIONS", "build_demo", "csv_bytes", "xlsx_bytes", "DemoGroup"]
 
@@ -32,6 +32,7 @@ class Section:
     bad_rows: dict[int, str] = field(default_factory=dict)  # group -> observation with a misread row
     notes: dict[int, str] = field(default_factory=dict)  # group -> id of a quality note that must appear
     leads: set = field(default_factory=set)  # (lead kind, student ids) the integrity screen must raise
+    wrong_lab: tuple[str, str] | None = None  # (student id, lab): a file made from that lab's template
 
     @property
     def zip_name(self) -> str:
@@ -41,7 +42,7 @@ class Section:
 SECTIONS = (
     Section("horizon_dip", "B", "horizon_dip", dip.dip_section,
             {k: v for k, v in dip.PLANTED.items() if v[0] not in ("unreadable", "bad_row")},
-            dip.MISSING_STUDENT, dip.UNREADABLE, {22: "dip_angle"}, leads=dip.LEADS),
+            dip.MISSING_STUDENT, dip.UNREADABLE, {22: "dip_angle"}, leads=dip.LEADS, wrong_lab=dip.WRONG_LAB_FILE),
     Section("taped_baseline", "C", "taped_baseline", baselines.taped_section, baselines.TAPED_PLANTED,
             baselines.TAPED_MISSING),
     Section("baseline_radius", "D", "baseline_radius", baselines.radius_section, baselines.RADIUS_PLANTED,
@@ -56,6 +57,21 @@ SECTIONS = (
 )
 
 
+def _filled_template(lab: str, student_id: str) -> list[tuple]:
+    """Another lab's blank template with an identity and a number in every observation row."""
+    from ..resources import shipped_spec
+    from ..spec import load_spec
+    from ..template import template_rows
+
+    rows = []
+    for part, item, _value, unit, _note, _description in template_rows(load_spec(shipped_spec(lab))):
+        if part == "identity":
+            rows.append((part, item, {"student_id": student_id, "name": "Quillon Ashgrove"}.get(item, ""), "", ""))
+        elif part == "observation":
+            rows.append((part, item, "30.0" if unit else "", unit, ""))
+    return rows
+
+
 def build_demo(folder: Path, section: Section) -> tuple[Path, Path]:
     """Write one section's LMS-style zip export and roster into ``folder``; return their paths."""
     folder.mkdir(parents=True, exist_ok=True)
@@ -64,12 +80,16 @@ def build_demo(folder: Path, section: Section) -> tuple[Path, Path]:
     top = f"GEOD2150-{section.code}_{section.lab}"
     with zipfile.ZipFile(zip_path, "w", zipfile.ZIP_DEFLATED) as z:
         for grp in groups:
-            member = f"{top}/{grp.name.replace(' ', '_')}_{grp.student_id}/{section.lab}_{section.code}{grp.number:02d}.{grp.fmt}"
-            data = xlsx_bytes(grp.rows) if grp.fmt == "xlsx" else csv_bytes(grp.rows)
+            suffix = "xlsx" if grp.fmt == "xlsx" else "csv"
+            member = f"{top}/{grp.name.replace(' ', '_')}_{grp.student_id}/{section.lab}_{section.code}{grp.number:02d}.{suffix}"
+            data = {"xlsx": xlsx_bytes, "csv;": semicolon_csv_bytes}.get(grp.fmt, csv_bytes)(grp.rows)
             if grp.number in section.unreadable:  # planted: a workbook damaged in upload
                 data = data[:700]
             z.writestr(member, data)
         z.writestr(f"__MACOSX/{top}/._{section.lab}_{section.code}01.csv", b"\x00\x05\x16\x07")
+        if section.wrong_lab:  # planted: another lab's template uploaded to this assignment
+            sid, lab = section.wrong_lab
+            z.writestr(f"{top}/Stray_{sid}/{lab}.csv", csv_bytes(_filled_template(lab, sid)))
     roster_path = folder / "roster.csv"
     with open(roster_path, "w", encoding="utf-8", newline="") as fh:
         w = csv.writer(fh)

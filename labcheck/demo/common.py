@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 import io
+import re
 import math
 from dataclasses import dataclass, field
 
@@ -28,7 +29,7 @@ class DemoGroup:
     number: int
     student_id: str
     name: str
-    fmt: str  # "csv" or "xlsx"
+    fmt: str  # "csv", "csv;" (a decimal-comma spreadsheet's CSV) or "xlsx"
     rows: list[tuple[str, str, str, str, str]] = field(default_factory=list)
 
 
@@ -69,6 +70,20 @@ def csv_bytes(rows) -> bytes:
     w = csv.writer(buf, lineterminator="\n")
     w.writerow(["part", "item", "value", "unit", "note"])
     w.writerows(rows)
+    return buf.getvalue().encode("utf-8")
+
+
+def semicolon_csv_bytes(rows) -> bytes:
+    """A CSV as a decimal-comma spreadsheet exports it: a ``sep=;`` line, ``;`` separators, CRLF,
+    decimal commas in the values."""
+    buf = io.StringIO()
+    w = csv.writer(buf, delimiter=";", lineterminator="\r\n")
+    buf.write("sep=;\r\n")
+    w.writerow(["part", "item", "value", "unit", "note"])
+    for part, item, value, unit, note in rows:
+        if re.fullmatch(r"-?\d+\.\d+", str(value)):
+            value = str(value).replace(".", ",")
+        w.writerow([part, item, value, unit, note])
     return buf.getvalue().encode("utf-8")
 
 

@@ -21,7 +21,7 @@ import numpy as np
 from ..reductions import horizon as hz
 from .common import DemoGroup, dms, num, person, sig
 
-__all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "COPIED", "FABRICATED", "LEADS", "dip_section"]
+__all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "COPIED", "FABRICATED", "LEADS", "WRONG_LAB_FILE", "dip_section"]
 
 TRUE_RADIUS_M = 6371008.8  # IUGG mean radius R1 (Moritz, GRS80)
 SEED = 20261201
@@ -42,6 +42,12 @@ PLANTED = {
     21: ("degrees_as_radians", "dip.radius_apparent"),
     22: ("bad_row", "dip_angle"),
 }
+# Honest groups that write their files as people do (graded all correct, with a note where said):
+SEMICOLON_GROUP = 2  # a decimal-comma spreadsheet's CSV: "sep=;" line, ";" separators, "19,60"
+DMS_UNDER_ARCMIN_GROUP = 5  # one dip reading written "0 6 18" under the template's arcmin (a note)
+UNIT_IN_VALUE_GROUP = 7  # eye height written "23.10 m" with the unit cell left blank
+# A file from another section's taped-baseline assignment, uploaded here by mistake.
+WRONG_LAB_FILE = ("b2150-031", "taped_baseline")
 MISSING_STUDENT = ("b2150-025", "Yorick Zennor")  # on the roster, no submission
 UNREADABLE = {15}  # files damaged in upload
 COPIED = (16, 17)  # group 16 hands in group 17's observations and results (an integrity lead)
@@ -63,6 +69,8 @@ def dip_section(n_groups: int = 24, seed: int = SEED, plant: bool = True) -> lis
         name = person(g - 1)
         station, height = STATIONS[(g - 1) % len(STATIONS)]
         fmt = "xlsx" if g % 4 == 0 or g == 15 else "csv"
+        if plant and g == SEMICOLON_GROUP:
+            fmt = "csv;"
         group = DemoGroup(g, sid, name, fmt)
         rows = group.rows
         rows += [
@@ -82,6 +90,9 @@ def dip_section(n_groups: int = 24, seed: int = SEED, plant: bool = True) -> lis
         if (plant and g == 6):  # planted: eye height recorded in feet
             rows.append(("observation", "eye_height", _r(h_meas / 0.3048, 1), "ft", "tape from the benchmark, in feet"))
             h_used_by_student = round(h_meas / 0.3048, 1)  # used as if metres
+        elif plant and g == UNIT_IN_VALUE_GROUP:
+            rows.append(("observation", "eye_height", f"{_r(h_meas, 2)} m", "", ""))
+            h_used_by_student = h_meas
         else:
             rows.append(("observation", "eye_height", _r(h_meas, 2), "m", ""))
             h_used_by_student = h_meas
@@ -106,7 +117,11 @@ def dip_section(n_groups: int = 24, seed: int = SEED, plant: bool = True) -> lis
                     if (plant and g == 22) and i == 2:  # planted: a misread row
                         rows.append(("observation", "dip_angle", "5.7.2", "arcmin", "wind shook the index"))
                         continue
-                    rows.append(("observation", "dip_angle", _r(val, 1), "arcmin", ""))
+                    if plant and g == DMS_UNDER_ARCMIN_GROUP and i == 0:  # D M S under arcmin: read, with a note
+                        whole = int(val)
+                        rows.append(("observation", "dip_angle", f"0 {whole} {round((val - whole) * 60):02d}", "arcmin", ""))
+                    else:
+                        rows.append(("observation", "dip_angle", _r(val, 1), "arcmin", ""))
                     texts.append(val)
             dip_mean = round(float(np.mean(texts)), 2)
             if (plant and g == 9):  # planted: digits transposed when copying the mean
