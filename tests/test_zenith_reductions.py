@@ -63,3 +63,15 @@ def test_trig_height_by_hand():
     cr = 0.87 * D**2 / (2 * R1)
     assert float(zn.trig_height_difference(S, z, cr, 1.5, 1.8)) == pytest.approx(S * math.cos(z) + cr - 0.3, abs=1e-12)
     assert cr == pytest.approx(0.0681, abs=0.0001)
+
+
+@pytest.mark.parametrize("horizontal_m, dh_m, k", [(3200.0, 220.0, 0.13), (850.0, -35.0, 0.08), (3200.0, 4.0, 0.0)])
+def test_reciprocal_heighting_slope_and_horizontal_against_plane_geometry(horizontal_m, dh_m, k):
+    # Plane geometry, computed here: the chord's elevation a = atan(dh/D); each end sees the other
+    # through a symmetric ray bent by the same angle r, so z_AB = 90° − a − r and z_BA = 90° + a − r.
+    a = math.atan2(dh_m, horizontal_m)
+    r = math.radians(0.01) * k
+    z_ab, z_ba = math.pi / 2 - a - r, math.pi / 2 + a - r
+    slope_m = math.hypot(horizontal_m, dh_m)
+    assert float(zn.reciprocal_height_difference(slope_m, z_ab, z_ba)) == pytest.approx(dh_m, abs=1e-9)
+    assert float(zn.reciprocal_height_difference(horizontal_m, z_ab, z_ba, horizontal=True)) == pytest.approx(dh_m, abs=1e-9)

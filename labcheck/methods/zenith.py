@@ -21,7 +21,7 @@ from .base import Constant, Method, Observation, Reference, Step, formula_varian
 
 _LAT = (-math.pi / 2, math.pi / 2)
 _LON = (-math.pi, math.pi)
-ALMANAC = "the sun's position by Meeus's low-accuracy method (Astronomical Algorithms, ch. 25)"
+ALMANAC = "the sun's position by the NREL Solar Position Algorithm (Reda & Andreas 2004)"
 
 
 def _when(ts) -> datetime:
@@ -436,7 +436,11 @@ RECIPROCAL = Method(
     observations=(
         Observation("zenith_ab", "zenith angle A → B", "angle", "dms", "zenith angle at A to B (index-corrected)"),
         Observation("zenith_ba", "zenith angle B → A", "angle", "dms", "zenith angle at B to A, at the same moment"),
-        Observation("reciprocal_distance", "distance A–B", "length", "m", "the distance between A and B (slope or horizontal)"),
+        Observation("reciprocal_distance", "distance A–B", "length", "m",
+                    "the distance between A and B; say in distance_kind whether it is the slope or the horizontal distance"),
+        Observation("distance_kind", "kind of distance A–B", "choice", "",
+                    "slope (along the line of sight, as an EDM measures it) or horizontal", choices=("slope", "horizontal"),
+                    default="slope"),
     ),
     constants=(_EARTH,),
     steps=(
@@ -449,11 +453,17 @@ RECIPROCAL = Method(
                               "ε must be in radians in k = 1 − R·ε/S.",
                               lambda e, S, R: zn.refraction_coefficient_reciprocal(np.degrees(e), S, R)),)),
         Step("height_difference", "height difference free of refraction", "length", "m",
-             "ΔH = S · sin((z_BA − z_AB) / 2)", "reciprocal observations cancel a symmetric refraction",
-             ("reciprocal_distance", "zenith_ab", "zenith_ba"), zn.reciprocal_height_difference,
+             "ΔH = S · sin((z_BA − z_AB) / 2) for a slope distance S; ΔH = D · tan((z_BA − z_AB) / 2) for a horizontal D",
+             "reciprocal observations cancel a symmetric refraction; plane trigonometry of the chord",
+             ("reciprocal_distance", "zenith_ab", "zenith_ba", "distance_kind"),
+             lambda S, a, b, kind: zn.reciprocal_height_difference(S, a, b, float(kind) >= 0.5),
              (formula_variant("halving_missing", "the half-difference not halved",
                               "The height follows the half-difference of the zenith angles: ΔH = S·sin((z_BA − z_AB)/2).",
-                              lambda S, a, b: S * np.sin(b - a)),)),
+                              lambda S, a, b, kind: S * (np.tan(b - a) if float(kind) >= 0.5 else np.sin(b - a))),
+              formula_variant("wrong_distance_kind", "the formula for the other kind of distance",
+                              "A horizontal distance takes ΔH = D·tan((z_BA − z_AB)/2) and a slope distance "
+                              "ΔH = S·sin((z_BA − z_AB)/2); the one for the other kind of distance was used.",
+                              lambda S, a, b, kind: zn.reciprocal_height_difference(S, a, b, float(kind) < 0.5)))),
     ),
     result_step="refraction_coefficient",
 )

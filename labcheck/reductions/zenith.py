@@ -87,6 +87,12 @@ def refraction_coefficient_reciprocal(angle_excess_rad, distance_m, radius_m):
     return 1.0 - _a(radius_m) * _a(angle_excess_rad) / _a(distance_m)
 
 
-def reciprocal_height_difference(distance_m, zenith_ab_rad, zenith_ba_rad):
-    """Height of B above A [m], free of refraction (symmetric ray): S·sin((z₂ − z₁)/2)."""
-    return _a(distance_m) * np.sin((_a(zenith_ba_rad) - _a(zenith_ab_rad)) / 2.0)
+def reciprocal_height_difference(distance_m, zenith_ab_rad, zenith_ba_rad, horizontal=False):
+    """Height of B above A [m], free of refraction (symmetric ray).
+
+    The half-difference α = (z_BA − z_AB)/2 is the elevation of the chord A→B once a symmetric
+    refraction (and the curvature) cancel; so ΔH = S·sin α with the slope distance S (the chord),
+    and ΔH = D·tan α with the horizontal distance D (plane trigonometry of the right triangle).
+    """
+    alpha = (_a(zenith_ba_rad) - _a(zenith_ab_rad)) / 2.0
+    return _a(distance_m) * (np.tan(alpha) if horizontal else np.sin(alpha))
