@@ -10,7 +10,7 @@ import numpy as np
 
 from .methods import Method, Step
 
-__all__ = ["Chain", "evaluate_chain", "evaluate_step", "finite"]
+__all__ = ["Chain", "evaluate_chain", "evaluate_step", "finite", "UNBOUNDED"]
 
 
 def finite(x) -> float | None:
@@ -24,16 +24,30 @@ def finite(x) -> float | None:
     return v if math.isfinite(v) else None
 
 
+UNBOUNDED = ("the value is unbounded for these inputs (a ratio whose denominator is exactly zero, "
+             "such as two runs that agree to the last digit)")
+
+
 def evaluate_step(step: Step, inputs: dict) -> tuple[float | None, str | None]:
-    """The step's value, or None with the reason (a step raises ValueError with words for the student)."""
+    """The step's value, or None with the reason (a step raises ValueError with words for the student).
+
+    A step whose value is +infinity gets the reason :data:`UNBOUNDED` (graded on its own terms).
+    """
+    raw = None
     with np.errstate(all="ignore"):
         try:
-            value = finite(step.evaluate(inputs))
+            raw = step.evaluate(inputs)
+            value = finite(raw)
         except ValueError as exc:
             return None, str(exc)
         except (ZeroDivisionError, OverflowError):
             value = None
     if value is None:
+        try:
+            if raw is not None and float(raw) == math.inf:
+                return None, UNBOUNDED
+        except (TypeError, ValueError):
+            pass
         return None, "the recomputation has no finite value for these inputs (check your observations)"
     return value, None
 

@@ -24,6 +24,7 @@ display unit.
 
 from __future__ import annotations
 
+import itertools
 import math
 import re
 from datetime import datetime, timezone
@@ -31,13 +32,13 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .chain import Chain, evaluate_chain, evaluate_step, finite
+from .chain import UNBOUNDED, Chain, evaluate_chain, evaluate_step, finite
 from .uncertainty import propagate
 from .reductions.stats import grubbs_test, scatter_test
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
-from .units import UNITS, format_fixed, format_value, from_si, parse_quantity, to_si
+from .units import UNITS, canonical_unit, format_fixed, format_value, from_si, half_unit_si, parse_quantity, to_si
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
@@ -315,6 +316,7 @@ class _MethodRun:
     reported_si: dict[str, float] = field(default_factory=dict)  # step id -> the student's value
     verdicts: dict[str, str] = field(default_factory=dict)
     sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
+    own_values: dict = field(default_factory=dict)  # step id -> recomputed from the student's own earlier results
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
         """The step's inputs with the student's own reported earlier values, if they reported any."""
@@ -328,9 +330,15 @@ class _MethodRun:
         return own if all(n in own for n in step.inputs) else None
 
 
-def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref_inputs, own_inputs, sub: Submission):
-    """(verdict, explanation, diagnosis) for one step; see the module docstring for the rules."""
+def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref_inputs, own_inputs, sub: Submission,
+             widen: float = 0.0, widen_text: str = ""):
+    """(verdict, explanation, diagnosis) for one step; see the module docstring for the rules.
+
+    ``widen`` [SI] is added to the spec's tolerance for observations converted by hand and the
+    method's model error (``widen_text`` says so on the sheet).
+    """
     step, tol = rule.step, rule.tolerance
+    tol_text = tol.text + widen_text
     if rep is None:
         also = ""
         if exp is None and step.id in run.why_missing:
@@ -338,13 +346,24 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
         if rule.key in sub.bad_items:
             return "missing", "Your value could not be read (see the notes on your rows)." + also, None
         return "missing", "Not reported." + also, None
-    if exp is not None and tol.matches(rep.si, exp):
-        return "correct", f"Matches the value recomputed from your observations (tolerance {tol.text}).", None
-    if own is not None and tol.matches(rep.si, own):
-        wrong_upstream = [u for u in run.method.upstream_steps(step) if run.verdicts.get(u) != "correct"]
-        if not wrong_upstream and exp is not None:
+    if exp is not None and tol.matches(rep.si, exp, widen):
+        return "correct", f"Matches the value recomputed from your observations (tolerance {tol_text}).", None
+    if exp is None and run.missing_reasons.get(step.id) == (UNBOUNDED,) and rep.si > 0:
+        return "correct", ("Recomputed from your observations this value is unbounded (the quantities it divides by "
+                           "agree to the last digit), so any positive value you report is consistent with them."), None
+    matched = next((used for value, used in _candidates(run, step, ref_inputs) if tol.matches(rep.si, value, widen)), None)
+    if matched is not None:
+        # Carried forward only from an earlier step you reported and got wrong.
+        wrong_upstream = [u for u in sorted(matched) if run.verdicts.get(u) in ("wrong", "carried") and u in run.reported_si]
+        if not wrong_upstream:
+            if exp is None:
+                used = ", ".join(run.method.step(u).label for u in sorted(matched)) or "earlier steps"
+                return "correct", (
+                    f"Follows correctly from your own value of {used} (tolerance {tol_text}); it cannot be recomputed "
+                    f"from your observations: {run.why_missing.get(step.id, 'inputs missing')}."
+                ), None
             return "correct", (
-                f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol.text})."
+                f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol_text})."
             ), None
         names = ", ".join(run.method.step(u).label for u in wrong_upstream)
         return "carried", (
@@ -359,12 +378,93 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     decimals = display_decimals(rule, _display(exp, rule.unit, step.kind))
     explanation = (
         f"Differs from the recomputed value by {format_step_value(diff, rule, decimals)}{rel}; "
-        f"the tolerance is {tol.text}."
+        f"the tolerance is {tol_text}."
     )
     diagnosis = _diagnose(rule, run.spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
     if diagnosis is None:
         explanation += " No known mistake reproduces your value: compare your working with the formula and the inputs shown."
     return "wrong", explanation, diagnosis
+
+
+def _hand_converted(method: Method, spec: LabSpec, used: dict, sub: Submission) -> tuple[dict, list[str]]:
+    """Observations (and a group's own constants) written in another unit than the lab's, which students
+    convert by hand: name -> half a unit in the last written digit [SI], and their names for the sheet."""
+    bounds, names = {}, []
+    for name, (_, readings) in used.items():
+        o = method.observation(name)
+        if o.kind in ("choice", "datetime"):
+            continue
+        lab_unit = canonical_unit(spec.observations[name].unit)
+        converted = [r for r in readings if canonical_unit(r.unit) != lab_unit and not {r.unit, lab_unit} <= {"deg", "dms"}]
+        halves = [half_unit_si(r.text, r.unit, o.kind) for r in converted]
+        halves = [h for h in halves if h]
+        if halves:
+            bounds[name] = max(halves)
+            names.append(name)
+    return bounds, names
+
+
+def _rounding_allowance(run: _MethodRun, rule: StepRule, from_hand: float, hand_names: list[str]) -> tuple[float, str]:
+    """How far a step may honestly differ beyond its tolerance [SI], and the words for the sheet.
+
+    (a) Observations written in another unit than the lab's are converted by hand: half a unit in the
+    last digit written, carried through the chain by first-order propagation (GUM, JCGM 100:2008,
+    5.1.2), summed as a worst case (``from_hand``).  Earlier results need no allowance: the student's
+    values as written, and as they would be unrounded, are tried exactly (see :func:`_candidates`).
+    (b) The reference reduction's model error (``Step.model_error_si``).
+    """
+    step = rule.step
+    total, reasons = 0.0, []
+    if from_hand:
+        total += from_hand
+        reasons += [f"{n} (converted by hand)" for n in hand_names]
+    if step.model_error_si:
+        total += step.model_error_si
+        reasons.append("the reference method's own model error")
+    if not total or not math.isfinite(total):
+        return 0.0, ""
+    base = rule.tolerance.allowed(run.expected.get(step.id) or 0.0)
+    if total < 0.05 * base:  # negligible beside the tolerance: not worth a word on the sheet
+        return total, ""
+    decimals = display_decimals(rule, _display(run.expected.get(step.id), rule.unit, step.kind))
+    words = "the method's model error" if not hand_names else f"{', '.join(reasons)} as written"
+    return total, f", widened by {format_step_value(total, rule, decimals)} for {words}"
+
+
+_MAX_COMBINATIONS = 81
+
+
+def _candidates(run: _MethodRun, step: Step, ref_inputs: dict) -> list[tuple[float, set[str]]]:
+    """The step's honest values from the student's own earlier results, each with the earlier steps whose
+    own value it used.
+
+    For each earlier result the step uses, the student may have carried the recomputed value, the value
+    as they wrote it, or their own unrounded value (recomputed from their own written inputs); every
+    combination other than all-recomputed is tried (at most 81).
+    """
+    upstream = [n for n in step.inputs if n in run.method.step_ids]
+    if any(n not in ref_inputs and n not in run.reported_si for n in step.inputs):
+        return []  # an observation or constant is missing: nothing to recompute from
+    options = []
+    for u in upstream:
+        opts = [(ref_inputs[u], False)] if u in ref_inputs else []
+        for v in (run.reported_si.get(u), run.own_values.get(u)):
+            if v is not None and all(abs(v - o[0]) > 0 for o in opts):
+                opts.append((v, True))
+        options.append(opts)
+    out = []
+    if not upstream:
+        return out
+    for n, combo in enumerate(itertools.product(*options)):
+        if n >= _MAX_COMBINATIONS:
+            break
+        if not any(own for _, own in combo):
+            continue
+        inputs = {**ref_inputs, **{u: v for u, (v, _) in zip(upstream, combo)}}
+        value = evaluate_step(step, inputs)[0]
+        if value is not None:
+            out.append((value, {u for u, (_, own) in zip(upstream, combo) if own}))
+    return out
 
 
 def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
@@ -628,6 +728,8 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
         sigmas = propagate(method, obs, consts, spec.observation_sigma,
                            {k: v for k, v in spec.constant_sigma.items() if k in consts}, counts)
     run.sigmas = sigmas
+    hand, hand_names = _hand_converted(method, spec, used, sub)
+    from_hand = propagate(method, obs, consts, hand, {}, bound=True) if hand else {}
     records = []
     for rule in spec.steps_of(method):
         step = rule.step
@@ -639,7 +741,11 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
         rep = sub.results.get(rule.key)
         if rep is not None:
             run.reported_si[step.id] = rep.si
-        verdict, explanation, diagnosis = _verdict(run, rule, rep, exp, own, ref_inputs, own_inputs, sub)
+        widen, widen_text = _rounding_allowance(run, rule, from_hand.get(step.id) or 0.0, hand_names)
+        verdict, explanation, diagnosis = _verdict(run, rule, rep, exp, own, ref_inputs, own_inputs, sub,
+                                                   widen, widen_text)
+        if own is not None:
+            run.own_values[step.id] = own
         run.verdicts[step.id] = verdict
         factor = {"correct": 1.0, "carried": spec.carried_fraction}.get(verdict, 0.0)
         show_own = own is not None and (exp is None or not rule.tolerance.matches(own, exp))
@@ -658,6 +764,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "reported_row": rep.row if rep is not None else None,
             "carried_expected": _display(own, rule.unit, step.kind) if show_own else None,
             "tolerance": rule.tolerance.text,
+            "tolerance_widened_by": _display(widen, rule.unit, step.kind) if widen else None,
             "sigma": _display(sigmas.get(step.id), rule.unit, step.kind) if sigmas.get(step.id) else None,
             "decimals": display_decimals(rule, _display(exp if exp is not None else (rep.si if rep else None), rule.unit, step.kind)),
             "verdict": verdict,

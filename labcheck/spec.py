@@ -64,12 +64,13 @@ class Tolerance:
             return abs(value_si) * self.relative
         return self.absolute_si or 0.0
 
-    def matches(self, reported_si: float, target_si: float) -> bool:
+    def matches(self, reported_si: float, target_si: float, extra_si: float = 0.0) -> bool:
+        """Within the tolerance, widened by ``extra_si`` (the rounding-aware part, see grading)."""
         if not (math.isfinite(reported_si) and math.isfinite(target_si)):
             return False
         # A hair of floating-point slack so that a value exactly on the edge passes.
         slack = 1e-9 * max(abs(target_si), 1e-300)
-        return abs(reported_si - target_si) <= self.allowed(target_si) + slack
+        return abs(reported_si - target_si) <= self.allowed(target_si) + extra_si + slack
 
 
 @dataclass(frozen=True)

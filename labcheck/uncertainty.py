@@ -28,14 +28,17 @@ _STEP = 1e-3  # finite-difference step as a fraction of each input's σ
 
 
 def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_sigma: dict,
-              counts: dict | None = None) -> dict:
+              counts: dict | None = None, *, bound: bool = False) -> dict:
     """Standard deviation of every step [SI], or None where the step cannot be recomputed.
+
+    With ``bound=True`` the inputs' values are bounds (half a unit of rounding, say), not standard
+    deviations, and each step gets the worst case Σ|∂f/∂xᵢ|·uᵢ instead of the root sum of squares.
 
     ``obs_sigma``/``const_sigma`` map names to the σ of one reading (SI);
     ``counts`` gives, for single-valued observations, how many rows were
     averaged into the value.
     """
-    counts = counts or {}
+    counts = {} if bound else (counts or {})
     base = evaluate_chain(method, obs, consts).expected
     variance = {sid: 0.0 for sid in method.step_ids}
 
@@ -44,7 +47,10 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
             a, b = plus.get(sid), minus.get(sid)
             if a is not None and b is not None and base.get(sid) is not None:
                 try:
-                    variance[sid] += ((a - b) / (2 * h) * sigma) ** 2
+                    if bound:  # worst case: |c|·u summed, for bounds such as half a unit of rounding
+                        variance[sid] += abs((a - b) / (2 * h) * sigma)
+                    else:
+                        variance[sid] += ((a - b) / (2 * h) * sigma) ** 2
                 except OverflowError:  # a derivative beyond any float: no finite uncertainty
                     variance[sid] = math.inf
 
@@ -72,5 +78,5 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
         h = sigma * _STEP
         accumulate(evaluate_chain(method, obs, {**consts, name: consts[name] + h}).expected,
                    evaluate_chain(method, obs, {**consts, name: consts[name] - h}).expected, h, sigma)
-    return {sid: (math.sqrt(v) if base.get(sid) is not None and math.isfinite(v) else None)
+    return {sid: ((v if bound else math.sqrt(v)) if base.get(sid) is not None and math.isfinite(v) else None)
             for sid, v in variance.items()}

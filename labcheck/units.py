@@ -36,6 +36,7 @@ __all__ = [
     "parse_quantity",
     "parse_value",
     "read_value",
+    "half_unit_si",
     "decimal_convention",
     "dms_is_unambiguous",
     "format_value",
@@ -461,6 +462,54 @@ def read_value(
     if not math.isfinite(si) or abs(si) > MAX_SI_MAGNITUDE:
         raise UnitError(f"{text!r} {unit} is far outside any value a field lab measures")
     return si, unit, note
+
+
+def half_unit_si(text: str, unit: str, kind: str) -> float | None:
+    """Half a unit in the last digit ``text`` was written with, in SI (None when it cannot tell).
+
+    ``12.8`` °C → 0.05 °C; ``55`` °F → 0.5 °F = 0.278 °C; ``0 10 42`` → 0.5″; ``6,373.0`` km → 50 m.
+    This bounds how far a value written this way may be from the one the writer had: the basis of
+    the rounding-aware tolerance (rounding error ≤ half a unit in the last place).
+    """
+    s = str(text).strip().replace("\u2212", "-")
+    if kind == "angle" and (unit == "dms" or looks_dms(s)):
+        parts = re.findall(r"\d+(?:[.,]\d+)?", _strip_hemisphere(s)[0])
+        if not parts or len(parts) > 3:
+            return None
+        last = parts[-1]
+        decimals = len(re.split(r"[.,]", last)[1]) if re.search(r"[.,]", last) else 0
+        scale = (1.0, 60.0, 3600.0)[len(parts) - 1]  # degrees, minutes or seconds
+        if re.search(r"[\d.]\s*['′’m]\s*$", s) and len(parts) == 1:
+            scale = 60.0
+        elif re.search(r"[\d.]\s*([\"″”s]|'')\s*$", s) and len(parts) == 1:
+            scale = 3600.0
+        return math.radians(0.5 * 10.0 ** -decimals / scale)
+    if kind not in UNITS or kind == "temperature" and unit not in UNITS["temperature"]:
+        return None
+    m = re.search(r"\d[\d.,\u2009\u202f\u00a0]*(?:[eE][+-]?\d+)?", s)
+    if not m:
+        return None
+    token = m.group()
+    exponent = 0
+    e = re.search(r"[eE]([+-]?\d+)$", token)
+    if e:
+        exponent = int(e.group(1))
+        token = token[: e.start()]
+    marks = [i for i, c in enumerate(token) if c in ".,"]
+    decimals = 0
+    if marks:
+        last = marks[-1]
+        tail = token[last + 1:]
+        grouped = len(marks) > 1 and token[marks[0]] == token[last] or (len(tail) == 3 and len(marks) == 1
+                                                                          and token[last] == ",")
+        decimals = 0 if grouped else len(tail)
+    half = 0.5 * 10.0 ** (exponent - decimals)
+    u = _canonical(unit)
+    if kind == "temperature":
+        return half * (5.0 / 9.0 if u == "F" else 1.0)
+    if u not in UNITS[kind]:
+        return None
+    return half * UNITS[kind][u]
 
 
 def parse_datetime(text: str) -> float:

@@ -122,8 +122,10 @@ def test_missing_observation_makes_dependents_ungradable_with_reason(spec):
     ra = step(rec, "dip.radius_apparent")
     assert ra["verdict"] == "missing"
     assert "eye height (eye_height) was not given" in ra["explanation"]
-    # Later steps are still checked against the student's own earlier values.
-    assert step(rec, "dip.radius")["verdict"] == "carried"
+    # Later steps are still checked against the student's own earlier values: right arithmetic on an
+    # unverifiable (not wrong) earlier value is correct, never "carried" (issue 9), and says which value.
+    radius = step(rec, "dip.radius")
+    assert radius["verdict"] == "correct" and "your own value of apparent radius from the dip" in radius["explanation"]
     assert "Cannot be judged" in rec["accuracy"]["dip"]["explanation"]
 
 

@@ -155,6 +155,10 @@ class Step:
     func: Callable[..., float]
     variants: tuple[Variant, ...] = ()
     description: str = ""
+    # The reference reduction's own model error [SI] against what students may fairly use (the
+    # almanac's tables, say): added to the step's tolerance.  0 where labcheck and the students'
+    # method compute the same quantity.
+    model_error_si: float = 0.0
 
     def evaluate(self, inputs: dict):
         """The step's value from ``inputs`` (a mapping that holds every declared input)."""
