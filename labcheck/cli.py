@@ -162,6 +162,12 @@ def cmd_check(args) -> int:
             print(f"      {s['explanation']}")
     for mid, acc in record["accuracy"].items():
         print(f"  accuracy ({mid}): {acc['explanation']} {acc['points']:g}/{acc['max_points']:g}")
+    qs = record.get("quality_score")
+    if qs:
+        print(f"  field-data quality: {qs['points']:g}/{qs['max_points']:g} ({qs['passed']} of {qs['checks']} checks passed)")
+        for q in record["quality"]:
+            if q.get("check"):
+                print(f"      {'ok ' if q['ok'] else 'not'} {q['text']}")
     print(f"  score {record['score']:g} / {record['max_score']:g} (advisory)")
     return 0
 

@@ -106,6 +106,7 @@ def gradebook_columns(spec: LabSpec) -> list[str]:
     cols += [f"points:{key}" for key in spec.steps]
     cols += [f"points:{key}_sigma" for key in spec.reported_sigma]
     cols += [f"accuracy:{m.id}" for m in spec.methods]
+    cols += ["quality"]  # the field-quality points: with the points and accuracy columns they sum to the score
     cols += ["flags", "error"]
     return cols
 
@@ -129,6 +130,8 @@ def gradebook_row(record: dict, spec: LabSpec) -> list:
     row += [points.get(key) for key in spec.steps]
     row += [points.get(f"{key}_sigma") for key in spec.reported_sigma]
     row += [acc[m.id]["points"] if m.id in acc else None for m in spec.methods]
+    quality = record.get("quality_score")
+    row += [quality["points"] if quality else None]
     row += [len(record.get("flags", [])), neutralise_cell(record.get("error") or "")]
     return row
 

@@ -563,6 +563,8 @@ def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) 
     v = from_si(value_si, unit, kind) if kind in UNITS else value_si
     if not math.isfinite(v):
         return "—"
+    if abs(v) < 1e-12:  # float noise of an exact zero (identical readings' scatter), never 8.3e-16
+        v = 0.0
     if v == 0:
         text = "0"
     else:
