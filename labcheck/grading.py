@@ -568,6 +568,11 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
                  f"the difference is {abs(value - ref) / sigma:.1f} σ.")
     elif acc.kind == "sigma" and value is not None:
         text += " No uncertainty could be propagated, so the sigma rule cannot be applied."
+    diagnosis = None
+    if value is not None and ref is not None and frac < 1.0:
+        diagnosis = _observation_unit_slip(run, ref, sigma)
+        if diagnosis:
+            text += f" Likely cause: {diagnosis['text']}"
     rep = sub.results.get(rule.key)
     return {
         "method": method.id,
@@ -587,10 +592,52 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
         "points": round(acc.points * frac, 3),
         "max_points": acc.points,
         "explanation": text,
+        "diagnosis": diagnosis,
     }, notes
 
 
 _CHECK_NOTES = {"noon_timing", "face_pair_closure"}  # method notes that count as quality checks
+
+# Unit slips in an observation that show only in the result: (kind, factor the written value is of the
+# right one, id, words).  Feet and metres (0.3048 m exactly), km and m, degrees, arcminutes and radians.
+_OBSERVATION_SLIPS = (
+    ("length", 1 / _FT, "observation_feet_as_metres", "written in feet but read as metres (×3.28)"),
+    ("length", _FT, "observation_metres_as_feet", "written in metres but converted as if in feet (×0.3048)"),
+    ("length", 1000.0, "observation_metres_for_km", "written in metres where the unit says km (×1000)"),
+    ("length", 0.001, "observation_km_for_metres", "written in km where the unit says m (×1/1000)"),
+    ("angle", 60.0, "observation_arcmin_for_degrees", "written in arcminutes where the unit says degrees (×60)"),
+    ("angle", 1 / 60.0, "observation_degrees_for_arcmin", "written in degrees where the unit says arcminutes (×1/60)"),
+    ("angle", 180 / math.pi, "observation_degrees_for_radians", "in degrees where radians were expected (×57.3)"),
+    ("angle", math.pi / 180, "observation_radians_for_degrees", "in radians where degrees were expected (×1/57.3)"),
+)
+
+
+def _observation_unit_slip(run: _MethodRun, ref: float, sigma: float | None) -> dict | None:
+    """An observation whose unit slip alone explains a result far from the reference, or None.
+
+    Each numeric observation is undone by each slip of its kind and the method recomputed: a slip is
+    named only when exactly one (observation, slip) brings the result within the full-points band.
+    """
+    method, acc = run.method, run.spec.accuracy
+    hits = []
+    for o in method.observations:
+        if o.name not in run.obs or o.kind not in ("length", "angle"):
+            continue
+        for kind, factor, slip_id, words in _OBSERVATION_SLIPS:
+            if kind != o.kind:
+                continue
+            obs = {**run.obs, o.name: np.asarray(run.obs[o.name], dtype=float) / factor if o.repeated
+                   else run.obs[o.name] / factor}
+            fixed = evaluate_chain(method, obs, run.consts).expected.get(method.result_step)
+            if fixed is not None and acc.score_fraction(fixed, ref, sigma) >= 1.0:
+                hits.append((o, slip_id, words))
+    if len(hits) != 1:
+        return None
+    o, slip_id, words = hits[0]
+    return {"id": slip_id, "observation": o.name,
+            "label": f"{o.label} {words.split(' (')[0]}",
+            "text": f"your {o.label} ({o.name}) looks {words}: read that way, your result lands within the "
+                    "full-points band. Check the unit you wrote it in."}
 
 
 def _pct_text(p: float) -> str:
