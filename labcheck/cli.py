@@ -250,7 +250,8 @@ def cmd_demo(args) -> int:
 def format_tune_report(report, spec: LabSpec) -> str:
     """The tune report as text (for the terminal or a file)."""
     out = [f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}",
-           "Each row: tolerance, then correct / carried / wrong for the step, mean score, passes. Nothing is changed."]
+           "Each row: the tolerance tried, then how many students the step finds correct / carried / wrong, the mean "
+           "score and how many students pass. Nothing is changed."]
     for key, rows in report.steps.items():
         out.append(f"\n  {key}")
         for r in rows:
@@ -261,7 +262,7 @@ def format_tune_report(report, spec: LabSpec) -> str:
         out.append(f"\n  accuracy ({spec.accuracy.text})")
         for r in report.accuracy:
             mark = "  <- current" if r.multiplier == 1 else ""
-            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
+            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} students with full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
                        f"   pass {r.n_pass}/{report.n}{mark}")
     if report.suggestion:
         sg = report.suggestion

@@ -38,7 +38,8 @@ from .reductions.stats import grubbs_test, scatter_test
 from .methods import Method, Step
 from .spec import LabSpec, StepRule
 from .submission import Reading, Submission
-from .units import UNITS, canonical_unit, format_fixed, format_value, from_si, half_unit_si, parse_quantity, to_si
+from .units import (UNITS, canonical_unit, dms_seconds_decimals, format_dms, format_fixed, format_value, from_si,
+                    half_unit_si, parse_quantity, to_si)
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
 
@@ -758,10 +759,14 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
     for name, (key, readings) in used.items():
         o = method.observation(name)
         if o.repeated and not o.spread:  # one value per span: no single value stands for them
-            text, note = f"{len(readings)} value{'s' if len(readings) != 1 else ''}", "one per span"
+            text, note = f"{len(readings)} value{'s' if len(readings) != 1 else ''}", f"one per {o.per}"
         else:
             value = obs[name] if o.kind == "choice" else float(np.mean(obs[name]))
             text, note = _observation_text(o, value, spec, 6), "mean" if len(readings) > 1 else ""
+            written = [dms_seconds_decimals(r.text) for r in readings if r.unit == "dms"]
+            if o.kind == "angle" and written and all(w is not None for w in written):
+                # Shown back as written: D°M′S″ to the seconds' decimals written (one more for a mean).
+                text = format_dms(value, min(3, max(written) + (1 if len(readings) > 1 else 0)))
         shown.append({
             "method": method.id,
             "name": name,

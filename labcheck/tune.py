@@ -17,7 +17,7 @@ from dataclasses import dataclass, replace
 
 from .grading import grade_submission
 from .spec import AccuracyRule, LabSpec, Tolerance
-from .units import format_value
+from .units import parse_quantity, format_value
 
 __all__ = ["MULTIPLIERS", "TuneReport", "tune", "tuned_spec_text"]
 
@@ -44,9 +44,13 @@ class TuneReport:
 
 
 def _scaled(tol: Tolerance, m: float) -> Tolerance:
+    """The tolerance times ``m``, its text the value tried in the spec's own unit ("0.005 arcmin")."""
     if tol.relative is not None:
         return Tolerance(f"{tol.relative * m * 100:.3g} %", relative=tol.relative * m)
-    return Tolerance(f"{tol.text} ×{m:g}" if m != 1 else tol.text, absolute_si=(tol.absolute_si or 0.0) * m)
+    if m == 1:
+        return tol
+    number, unit = parse_quantity(tol.text)
+    return Tolerance(f"{number * m:.3g} {unit}".strip(), absolute_si=(tol.absolute_si or 0.0) * m)
 
 
 def tune(spec: LabSpec, submissions: list) -> TuneReport:
@@ -88,12 +92,14 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
             scores, maxes, within = [], [], 0
             for rec in base:
                 score = rec["score"] or 0.0
+                fracs = []
                 for a in (rec.get("accuracy") or {}).values():
                     if a["recomputed"] is None or a["reference"] is None:
                         continue
                     frac = rule.score_fraction(a["recomputed"], a["reference"], a.get("sigma"))
                     score += a["max_points"] * frac - a["points"]
-                    within += frac == 1.0
+                    fracs.append(frac)
+                within += bool(fracs) and all(f == 1.0 for f in fracs)  # students, not methods
                 scores.append(score)
                 maxes.append(rec["max_score"])
             mean, n_pass = summarise(scores, maxes)

@@ -41,6 +41,8 @@ __all__ = [
     "dms_is_unambiguous",
     "format_value",
     "format_fixed",
+    "format_dms",
+    "dms_seconds_decimals",
 ]
 
 
@@ -560,6 +562,8 @@ def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) 
     """
     if value_si is None or not math.isfinite(value_si):
         return "—"
+    if kind == "angle" and unit == "dms":  # degrees, minutes, seconds: never "92.0053 dms"
+        return format_dms(value_si, max(0, min(3, digits - 6)))
     v = from_si(value_si, unit, kind) if kind in UNITS else value_si
     if not math.isfinite(v):
         return "—"
@@ -572,6 +576,26 @@ def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) 
         decimals = max(0, digits - 1 - magnitude)
         text = f"{v:.{decimals}f}"
     return f"{text} {unit}".strip() if unit not in ("1", "") else text
+
+
+def format_dms(angle_rad: float, seconds_decimals: int = 0) -> str:
+    """An angle as D°MM′SS″ with ``seconds_decimals`` decimals of seconds (``92°00′53″``, ``−0°11′20.5″``)."""
+    if angle_rad is None or not math.isfinite(angle_rad):
+        return "—"
+    total = round(abs(math.degrees(angle_rad)) * 3600.0, seconds_decimals)
+    d, rest = divmod(total, 3600.0)
+    m, sec = divmod(rest, 60.0)
+    sign = "−" if angle_rad < 0 and total > 0 else ""
+    width = 2 + (seconds_decimals + 1 if seconds_decimals else 0)
+    return f"{sign}{int(d)}°{int(m):02d}′{sec:0{width}.{seconds_decimals}f}″"
+
+
+def dms_seconds_decimals(text: str) -> int | None:
+    """Decimals of the seconds a D M S value was written with (``0 10 42.5`` → 1), or None if not D M S."""
+    parts = re.findall(r"\d+(?:[.,](\d+))?", _strip_hemisphere(str(text))[0])
+    if len(parts) != 3:
+        return None
+    return len(parts[-1])
 
 
 def format_fixed(value, decimals: int, unit: str = "") -> str:

@@ -121,3 +121,22 @@ def test_an_arbitrary_result_error_names_no_unit_slip():
             if r[0] != "result"]
     acc = _grade(spec, rows)["accuracy"]["dip"]
     assert acc["diagnosis"] is None
+
+
+def test_angles_written_in_dms_are_shown_back_in_dms():
+    # A surveyor reads "92.0053 dms" as 92°00′53″: D M S comes back as D°M′S″ at the precision written
+    # (one more decimal for a mean); rows of face pairs are captioned per pair, not per span.
+    spec = load_spec(shipped_spec("trig_heighting"))
+    group = honest_groups(_section("trig_heighting"))[0]
+    rec = _grade(spec, group.rows)
+    shown = {o["name"]: o for o in rec["observations"]}
+    dms_rows = [o for o in rec["observations"] if any("°" in r["as_written"] or r["as_written"].endswith("dms")
+                                                       for r in o["readings"])]
+    assert dms_rows
+    for o in dms_rows:
+        assert "dms" not in o["value"], o["value"]
+        assert "°" in o["value"] or o["value_note"].startswith("one per"), o["value"]
+    for o in shown.values():
+        if o["value_note"].startswith("one per"):
+            assert o["value_note"] in ("one per pair", "one per span")
+    assert all("dms" not in q["text"] for q in rec["quality"])

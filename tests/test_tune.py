@@ -41,3 +41,17 @@ def test_tune_writes_only_when_asked(tmp_path, capsys, spec):
     text = tuned.read_text(encoding="utf-8")
     assert "# tuned by labcheck tune" in text and 'full_within = "2 sigma"' not in text
     assert main(["spec", "check", str(tuned)]) == 0
+
+
+def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
+    # Issue 9: "0.02 arcmin ×0.25" instead of the value, and methods counted where students are meant.
+    from labcheck.cli import format_tune_report
+    from labcheck.tune import _scaled
+
+    assert _scaled(spec.steps["dip_mean"].tolerance, 0.25).text == "0.005 arcmin"
+    subs = [normalise(read_rows(csv_bytes(good_dip_rows(h=10 + i, sid=f"s{i}")), f"{i}.csv"), spec) for i in range(4)]
+    report = tune(spec, subs)
+    assert all(r.correct <= report.n for r in report.accuracy)  # at most one per student
+    text = format_tune_report(report, spec)
+    assert "0.005 arcmin" in text and "×0.25" not in text.split("0.005 arcmin")[1].split("\n")[0]
+    assert "students with full points" in text

@@ -60,6 +60,7 @@ class Observation:
     limits: tuple[float, float] | None = None  # physical range in SI; outside is a bad row
     choices: tuple[str, ...] = ()  # kind 'choice': allowed words, read as their index
     spread: bool = True  # repeated readings of one quantity (their spread is a quality note), not segments
+    per: str = "span"  # what one row of a repeated observation with spread=False stands for (the sheet says so)
     default: str | None = None  # used when not given, e.g. "10 C", "1010 hPa", "south"; the sheet says so
 
 

@@ -392,9 +392,10 @@ FACE_PAIRS = Method(
     summary="Reading a zenith angle on both faces of the theodolite cancels the vertical index error.",
     observations=(
         Observation("zenith_face_left", "face-left zenith readings", "angle", "dms",
-                    "zenith angle read face left (one row per pair)", repeated=True, spread=False),
+                    "zenith angle read face left (one row per pair)", repeated=True, spread=False, per="pair"),
         Observation("zenith_face_right", "face-right zenith readings", "angle", "dms",
-                    "zenith angle read face right, in the same order (one row per pair)", repeated=True, spread=False),
+                    "zenith angle read face right, in the same order (one row per pair)", repeated=True, spread=False,
+                    per="pair"),
     ),
     constants=(Constant("index_error_tolerance", "allowed spread of the pairs' index errors", "angle",
                         "how far the index errors of the pairs may disagree before the sheet flags it",
