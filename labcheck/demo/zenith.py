@@ -112,7 +112,8 @@ def gnomon_section() -> list[DemoGroup]:
 # ---------------------------------------------------------------- sextant ---
 SEXTANT_PLANTED = {2: ("index_error_wrong_sign", "index_corrected"), 4: ("double_altitude_not_halved", "apparent_altitude"),
                    6: ("refraction_added", "observed_altitude"), 8: ("semi_diameter_wrong_limb", "observed_altitude"),
-                   9: ("declination_sign", "declination"), 10: ("dip_added", "apparent_altitude")}
+                   9: ("declination_sign", "declination"), 10: ("dip_added", "apparent_altitude"),
+                   11: ("semi_diameter_left_out", "observed_altitude")}
 
 
 def _dm(angle_deg: float) -> str:
@@ -128,7 +129,7 @@ def sextant_section() -> list[DemoGroup]:
     rng = np.random.default_rng(SEED + 1)
     groups = []
     arcmin = math.radians(1 / 60)
-    for g in range(1, 11):
+    for g in range(1, 12):
         sid = f"g2150-{g:03d}"
         grp = DemoGroup(g, sid, person(g + 9, 5), "xlsx" if g % 3 == 0 else "csv")
         artificial = g in (1, 3, 4, 5)
@@ -178,6 +179,8 @@ def sextant_section() -> list[DemoGroup]:
             ho_s = h2 + r + sd_signed + pa
         elif mistake == "semi_diameter_wrong_limb":
             ho_s = h2 - r - sd_signed + pa
+        elif mistake == "semi_diameter_left_out":
+            ho_s = h2 - r + pa
         else:
             ho_s = h2 - r + sd_signed + pa
         dec = sun.declination(when) * (-1 if mistake == "declination_sign" else 1)
