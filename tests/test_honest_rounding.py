@@ -13,7 +13,7 @@ import random
 from datetime import datetime, timedelta, timezone
 
 import numpy as np
-from hypothesis import HealthCheck, given, settings, strategies as st
+from hypothesis import HealthCheck, assume, given, settings, strategies as st
 from pvlib import spa
 
 from labcheck.grading import grade_submission
@@ -319,3 +319,155 @@ def test_no_carried_without_a_wrong_earlier_step_named():
                             ("result", "forward_standardisation", f"{351.050 * 0.0032 / 30:.4f}", "m")]
     step = next(s for s in grade(TAPED, rows)["steps"] if s["id"] == "forward_standardisation")
     assert step["verdict"] == "carried" and "your own value of forward measured length" in step["explanation"]
+
+
+# ------------------------------------------------------------------ odometer baseline
+
+ODOMETER = load_spec(shipped_spec("odometer_baseline"))
+
+
+@HONEST
+@given(st.integers(0, 2**32))
+def test_odometer_baseline_lab(seed):
+    rnd = random.Random(seed)
+    st_ = Student(rnd, ODOMETER)
+    course = round(rnd.uniform(0.8, 2.0), 3)
+    bias = rnd.uniform(0.97, 1.03)  # the odometer reads long or short
+    a = round(rnd.uniform(1000, 90000), 1)
+    b = round(a + course / bias, 1)
+    c = round(rnd.uniform(1000, 90000), 1)
+    d = round(c + 6.842 / bias * rnd.uniform(0.99, 1.01), 1)
+    st_.rows += [("observation", "calibration_course_length", f"{course:.3f}", "km"),
+                 ("observation", "calibration_start", f"{a:.1f}", "km"), ("observation", "calibration_end", f"{b:.1f}", "km"),
+                 ("observation", "odometer_start", f"{c:.1f}", "km"), ("observation", "odometer_end", f"{d:.1f}", "km")]
+    f = course / (b - a)
+    f = st_.report("calibration_factor", f, "", st_.tol("calibration_factor", f))
+    dist = f * (d - c)
+    st_.report("odometer_distance", dist, "km", st_.tol("odometer_distance", dist))
+    assert_honest(grade(ODOMETER, st_.rows))
+
+
+# ------------------------------------------------------------------ gnomon, one site and two (meridian arc)
+
+SHADOW = load_spec(shipped_spec("noon_shadow"))
+ARC = load_spec(shipped_spec("meridian_arc"))
+
+
+def _bennett_arcmin(h_deg):
+    """Bennett (1982): R = cot(h + 7.31/(h + 4.4)) arcmin, at 1010 hPa and 10 °C."""
+    return 1 / math.tan(math.radians(h_deg + 7.31 / (h_deg + 4.4)))
+
+
+def _gnomon_site(st_, rnd, prefix, lat, lon, day):
+    """Rows and reported steps of one gnomon site (penumbra centre: the sun's centre); returns the latitude."""
+    transit = spa.transit_sunrise_sunset(np.array([day.timestamp()]), lat, lon, 69.0, 1)[0][0]
+    when = datetime.fromtimestamp(float(transit) + rnd.uniform(-240, 240), timezone.utc).replace(microsecond=0)
+    unix = np.array([when.timestamp()])
+    _, _, dec = spa.solar_position(unix, lat, lon, 0, 1010, 10, 69.0, 0.5667, sst=True)
+    dec = float(dec[0])
+    z_true = abs(lat - dec)
+    assume(z_true > 5)  # a gnomon almost under the sun casts no shadow worth measuring
+    z_app = z_true - _bennett_arcmin(90 - z_true) / 60  # refraction lifts the sun (close enough to invert)
+    g = round(rnd.uniform(1.0, 2.5), 3)
+    shadows = [round(g * math.tan(math.radians(z_app)) + rnd.gauss(0, 0.004), 3) for _ in range(rnd.randint(3, 6))]
+    p = prefix
+    st_.rows += [("observation", f"{p}gnomon_height", f"{g:.3f}", "m")]
+    st_.rows += [("observation", f"{p}shadow_length", f"{x:.3f}", "m") for x in shadows]
+    st_.rows += [("observation", f"{p}observed_at", when.isoformat().replace("+00:00", "Z"), ""),
+                 ("observation", f"{p}lon", f"{lon:.5f}", "deg"), ("observation", f"{p}lat", f"{lat:.5f}", "deg"),
+                 ("observation", f"{p}sun_direction", "south" if lat > dec else "north", "")]
+    s = st_.report(f"{p}shadow_mean", sum(shadows) / len(shadows), "m", st_.tol(f"{p}shadow_mean", 0))
+    z = st_.report(f"{p}zenith_observed", math.degrees(math.atan2(s, g)), "deg", st_.tol(f"{p}zenith_observed", 0, DEG))
+    zc = st_.report(f"{p}zenith_centre", z, "deg", st_.tol(f"{p}zenith_centre", 0, DEG))
+    zt = st_.report(f"{p}zenith_true", zc + _bennett_arcmin(90 - zc) / 60, "deg", st_.tol(f"{p}zenith_true", 0, DEG))
+    d = st_.report(f"{p}declination", dec, "deg", st_.tol(f"{p}declination", 0, DEG))
+    return st_.report(f"{p}latitude", d + zt if lat > dec else d - zt, "deg", st_.tol(f"{p}latitude", 0, DEG))
+
+
+@HONEST
+@given(st.integers(0, 2**32))
+def test_noon_shadow_lab(seed):
+    rnd = random.Random(seed)
+    st_ = Student(rnd, SHADOW)
+    day = datetime(2026, 1, 1, tzinfo=timezone.utc) + timedelta(days=rnd.randint(0, 364))
+    _gnomon_site(st_, rnd, "", rnd.uniform(-55, 55), rnd.uniform(-170, 170), day)
+    assert_honest(grade(SHADOW, st_.rows))
+
+
+@HONEST
+@given(st.integers(0, 2**32))
+def test_meridian_arc_lab(seed):
+    rnd = random.Random(seed)
+    st_ = Student(rnd, ARC)
+    day = datetime(2026, 1, 1, tzinfo=timezone.utc) + timedelta(days=rnd.randint(0, 364))
+    lat1, lon = rnd.uniform(-50, 50), rnd.uniform(-170, 170)
+    lat2 = lat1 + rnd.choice((-1, 1)) * rnd.uniform(2.0, 6.0)
+    phi1 = _gnomon_site(st_, rnd, "site1_", lat1, lon, day)
+    phi2 = _gnomon_site(st_, rnd, "site2_", lat2, lon + rnd.uniform(-0.2, 0.2), day)
+    s_km = round(abs(lat2 - lat1) * math.pi / 180 * 6367.0 * rnd.uniform(0.99, 1.01), 1)
+    st_.rows.append(("observation", "north_south_distance", f"{s_km:.1f}", "km"))
+    dlat = st_.report("delta_lat", phi2 - phi1, "deg", st_.tol("delta_lat", 0, DEG))
+    radius = s_km / abs(math.radians(dlat))
+    st_.report("radius", radius, "km", st_.tol("radius", radius))
+    assert_honest(grade(ARC, st_.rows))
+
+
+# ------------------------------------------------------------------ theodolite: face pairs, heighting, reciprocal
+
+THEODOLITE = load_spec(shipped_spec("trig_heighting"))
+ARCSEC = 1 / 3600
+
+
+def _dms_text(x_deg):
+    total = round(x_deg * 3600)
+    d, rest = divmod(total, 3600)
+    m, s = divmod(rest, 60)
+    return f"{d} {m:02d} {s:02d}", d + m / 60 + s / 3600
+
+
+@HONEST
+@given(st.integers(0, 2**32))
+def test_trig_heighting_lab(seed):
+    rnd = random.Random(seed)
+    st_ = Student(rnd, THEODOLITE)
+    # Face pairs: FL + FR = 360° + 2i.
+    z_true, i_true = rnd.uniform(80, 100), rnd.uniform(-15, 15) * ARCSEC
+    fl, fr = [], []
+    for _ in range(rnd.randint(2, 4)):
+        noise = rnd.gauss(0, 2) * ARCSEC
+        t_l, v_l = _dms_text(z_true + i_true + noise)
+        t_r, v_r = _dms_text(360 - z_true + i_true + noise + rnd.gauss(0, 1) * ARCSEC)
+        st_.rows += [("observation", "zenith_face_left", t_l, ""), ("observation", "zenith_face_right", t_r, "")]
+        fl.append(v_l)
+        fr.append(v_r)
+    i_s = sum((a + b - 360) / 2 for a, b in zip(fl, fr)) / len(fl) * 3600
+    i_s = st_.report("index_error", i_s, "arcsec", st_.tol("index_error", 0, math.radians(ARCSEC)))
+    st_.report("zenith_corrected", sum(fl) / len(fl) - i_s / 3600, "deg", st_.tol("zenith_corrected", 0, DEG))
+    # Heighting: ΔH = S cos z + (1 − k) D²/(2R) + hi − ht, D = S sin z.
+    S = round(rnd.uniform(200, 3000), 3)
+    zt, z = _dms_text(rnd.uniform(85, 95))
+    hi, ht = round(rnd.uniform(1.3, 1.7), 3), round(rnd.uniform(1.3, 2.0), 3)
+    st_.rows += [("observation", "slope_distance", f"{S:.3f}", "m"), ("observation", "zenith_angle", zt, ""),
+                 ("observation", "instrument_height", f"{hi:.3f}", "m"), ("observation", "target_height", f"{ht:.3f}", "m")]
+    D = st_.report("horizontal_distance", S * math.sin(math.radians(z)), "m", st_.tol("horizontal_distance", 0))
+    cr = st_.report("curvature_refraction", (1 - 0.13) * D**2 / (2 * 6371008.8), "m", st_.tol("curvature_refraction", 0))
+    st_.report("heighting.height_difference", S * math.cos(math.radians(z)) + cr + hi - ht, "m",
+               st_.tol("heighting.height_difference", 0))
+    # Reciprocal: z_AB + z_BA − 180° = (1 − k)·S/R; ΔH from the half-difference, slope or horizontal.
+    dist = round(rnd.uniform(500, 4000), 3)
+    k = rnd.uniform(0.05, 0.2)
+    alpha = math.degrees(math.atan2(rnd.uniform(-150, 150), dist))
+    excess = math.degrees((1 - k) * dist / 6371008.8)
+    t_ab, z_ab = _dms_text(90 - alpha + excess / 2)
+    t_ba, z_ba = _dms_text(90 + alpha + excess / 2)
+    horizontal = rnd.random() < 0.5
+    st_.rows += [("observation", "zenith_ab", t_ab, ""), ("observation", "zenith_ba", t_ba, ""),
+                 ("observation", "reciprocal_distance", f"{dist:.3f}", "m"),
+                 ("observation", "distance_kind", "horizontal" if horizontal else "slope", "")]
+    e = st_.report("angle_excess", (z_ab + z_ba - 180) * 3600, "arcsec", st_.tol("angle_excess", 0, math.radians(ARCSEC)))
+    k_rep = 1 - 6371008.8 * math.radians(e / 3600) / dist
+    st_.report("refraction_coefficient", k_rep, "", st_.tol("refraction_coefficient", 0))
+    half = math.radians((z_ba - z_ab) / 2)
+    dh = dist * (math.tan(half) if horizontal else math.sin(half))
+    st_.report("reciprocal.height_difference", dh, "m", st_.tol("reciprocal.height_difference", 0))
+    assert_honest(grade(THEODOLITE, st_.rows))

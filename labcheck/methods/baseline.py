@@ -75,6 +75,15 @@ def _sign_flip_variant(name: str, label: str):
     )
 
 
+def _left_out_variant(name: str, label: str):
+    return formula_variant(
+        f"{name}_left_out",
+        f"{label} left out",
+        f"The {label} was not added: each correction enters the corrected length once, with its own sign.",
+        _with_correction_scaled(name, 0.0),
+    )
+
+
 def _twice_variant(name: str, label: str):
     return formula_variant(
         f"{name}_applied_twice",
@@ -134,7 +143,8 @@ def _run_steps(run: str) -> tuple[Step, ...]:
                               "horizontal distance.",
                               _with_correction_scaled("slope", 0.0)),)
              + tuple(_sign_flip_variant(n, f"{n} correction") for n in CORRECTIONS)
-             + tuple(_twice_variant(n, f"{n} correction") for n in CORRECTIONS)),
+             + tuple(_twice_variant(n, f"{n} correction") for n in CORRECTIONS)
+             + tuple(_left_out_variant(n, f"{n} correction") for n in CORRECTIONS if n != "slope")),
     )
 
 
