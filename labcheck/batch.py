@@ -44,10 +44,7 @@ __all__ = ["OutputExistsError", "OutputWriteError", "RunSummary", "grade_section
 ERROR_LOG = "labcheck-errors.log"
 OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json", ERROR_LOG)
 
-EXIT_OK = 0  # every file graded, every roster student present
-EXIT_INCOMPLETE = 1  # graded, but some files unreadable (or another lab's) or some students missing
-EXIT_USAGE = 2  # a usage, input or spec error: nothing graded, nothing written
-EXIT_LABCHECK_FAILED = 3  # labcheck itself failed on some file, or could not write its outputs
+from .exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE  # noqa: F401 (re-exported)
 
 
 class OutputExistsError(Exception):

@@ -16,13 +16,16 @@ import shutil
 import sys
 from pathlib import Path
 
+from typing import TYPE_CHECKING
+
 from . import __version__
-from .batch import (EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE, ERROR_LOG, OutputExistsError,
-                    OutputWriteError, count_inputs, grade_section)
-from .ingest import InputError, Limits, read_rows
+from .exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE
 from .resources import shipped_spec, specs_dir
-from .compare import ResultsError
-from .spec import LabSpec, SpecError, load_spec
+
+if TYPE_CHECKING:  # imported where used: `labcheck --help` and `check` stay quick to start
+    from .spec import LabSpec
+
+# Every module below is imported inside the command that needs it (start-up time: docs/outputs.md).
 
 EXAMPLES = {
     "grade": "example:\n  labcheck grade horizon_dip submissions.zip --roster roster.csv --out graded/",
@@ -44,8 +47,10 @@ class _Colour:
         return f"\033[{code}m{text}\033[0m" if self.on else text
 
 
-def _resolve_spec(name: str) -> LabSpec:
+def _resolve_spec(name: str) -> "LabSpec":
     """Load a spec by path, or by the id of a shipped spec (``horizon_dip``)."""
+    from .spec import SpecError, load_spec
+
     p = Path(name)
     if not p.exists() and not p.suffix:
         shipped = shipped_spec(name)
@@ -75,6 +80,8 @@ def _progress(total: int, stream):
 
 
 def cmd_grade(args) -> int:
+    from .batch import count_inputs, grade_section
+
     spec = _resolve_spec(args.spec)
     total = count_inputs(args.inputs) if all(Path(i).exists() for i in args.inputs) else 0
     progress = None if args.quiet else _progress(total, sys.stderr)
@@ -85,7 +92,9 @@ def cmd_grade(args) -> int:
     return run.exit_code
 
 
-def _print_summary(run, spec: LabSpec, out: Path) -> None:
+def _print_summary(run, spec: "LabSpec", out: Path) -> None:
+    from .batch import ERROR_LOG
+
     c = _Colour(sys.stdout)
     print(f"{spec.title}")
     line = f"  graded {run.n_graded} of {run.n_files} files"
@@ -116,6 +125,7 @@ def _print_summary(run, spec: LabSpec, out: Path) -> None:
 
 def cmd_check(args) -> int:
     from .grading import grade_submission
+    from .ingest import InputError, Limits, read_rows
     from .submission import normalise
 
     spec = _resolve_spec(args.spec)
@@ -173,6 +183,8 @@ def cmd_check(args) -> int:
 
 
 def cmd_template(args) -> int:
+    from .batch import OutputExistsError
+    from .ingest import InputError
     from .template import write_template
 
     spec = _resolve_spec(args.spec)
@@ -187,6 +199,9 @@ def cmd_template(args) -> int:
 
 
 def cmd_spec(args) -> int:
+    from .ingest import InputError
+    from .spec import load_spec
+
     if args.action == "list":
         for f in sorted(specs_dir().glob("*.toml")):
             spec = load_spec(f)
@@ -207,7 +222,9 @@ def cmd_spec(args) -> int:
 
 
 def cmd_demo(args) -> int:
+    from .batch import OutputExistsError, count_inputs, grade_section
     from .demo import SECTIONS, build_demo
+    from .spec import load_spec
 
     out = Path(args.out)
     if out.exists() and any(out.iterdir()):
@@ -247,7 +264,7 @@ def cmd_demo(args) -> int:
     return worst
 
 
-def format_tune_report(report, spec: LabSpec) -> str:
+def format_tune_report(report, spec: "LabSpec") -> str:
     """The tune report as text (for the terminal or a file)."""
     out = [f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}",
            "Each row: the tolerance tried, then how many students the step finds correct / carried / wrong, the mean "
@@ -293,7 +310,9 @@ def format_diff(d, old_name: str, new_name: str) -> str:
 
 
 def cmd_tune(args) -> int:
-    from .ingest import RawSubmission, iter_submissions
+    from .batch import OutputExistsError
+    from .ingest import InputError, RawSubmission, iter_submissions
+    from .spec import load_spec
     from .submission import normalise
     from .tune import tune, tuned_spec_text
 
@@ -327,9 +346,11 @@ def cmd_diff(args) -> int:
     return 0
 
 
-def _demo_tune_and_diff(spec: LabSpec, zip_path: Path, roster: Path, folder: Path) -> None:
+def _demo_tune_and_diff(spec: "LabSpec", zip_path: Path, roster: Path, folder: Path) -> None:
     """Show tune and diff on the dip section: a report, a tuned spec copy, a regrade, the diff."""
+    from .batch import grade_section
     from .compare import diff_runs, load_results
+    from .spec import load_spec
     from .ingest import RawSubmission, iter_submissions
     from .submission import normalise
     from .tune import tune, tuned_spec_text
@@ -426,18 +447,36 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     try:
         return args.func(args)
-    except SpecError as exc:
-        print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
-        return EXIT_USAGE
-    except (InputError, OutputExistsError, ResultsError) as exc:
-        print(f"labcheck: {exc}", file=sys.stderr)
-        return EXIT_USAGE
-    except OutputWriteError as exc:
-        print(f"labcheck: {exc}", file=sys.stderr)
-        return EXIT_LABCHECK_FAILED
     except KeyboardInterrupt:
         print("labcheck: interrupted", file=sys.stderr)
         return 130
+    except Exception as exc:
+        code = _our_error(exc)
+        if code is None:
+            raise  # a bug: keep its traceback
+        return code
+
+
+def _our_error(exc: Exception) -> int | None:
+    """Our own exceptions as a one-line message and an exit status; None for anything else (a bug).
+
+    Imported here, after the fact, so that start-up pays for none of these modules.
+    """
+    from .batch import OutputExistsError, OutputWriteError
+    from .compare import ResultsError
+    from .ingest import InputError
+    from .spec import SpecError
+
+    if isinstance(exc, SpecError):
+        print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
+        return EXIT_USAGE
+    if isinstance(exc, (InputError, OutputExistsError, ResultsError)):
+        print(f"labcheck: {exc}", file=sys.stderr)
+        return EXIT_USAGE
+    if isinstance(exc, OutputWriteError):
+        print(f"labcheck: {exc}", file=sys.stderr)
+        return EXIT_LABCHECK_FAILED
+    return None
 
 
 if __name__ == "__main__":

@@ -8,11 +8,11 @@ errors (StrictUndefined), not silent blanks.
 from __future__ import annotations
 
 import math
+from collections import Counter
 
 import jinja2
 from markupsafe import Markup
 import numpy as np
-import pandas as pd
 
 from . import __version__
 from .outputs import run_time
@@ -232,16 +232,19 @@ class Renderer:
         rows = [(key, v, d) for s in graded for key, v, d in s["verdicts"]]
         if not rows:
             return []
-        df = pd.DataFrame(rows, columns=["step", "verdict", "diagnosis"])
-        counts = pd.crosstab(df["step"], df["verdict"])
+        verdicts: dict[str, Counter] = {}
+        diagnoses: dict[str, Counter] = {}
+        for key, verdict, diagnosis in rows:
+            verdicts.setdefault(key, Counter())[verdict] += 1
+            if diagnosis is not None:
+                diagnoses.setdefault(key, Counter())[diagnosis] += 1
         out = []
         for key, rule in self.spec.steps.items():
-            if key not in counts.index:
+            if key not in verdicts:
                 continue
-            c = counts.loc[key]
-            n = int(c.sum())
-            diag = df[(df["step"] == key) & df["diagnosis"].notna()]["diagnosis"].value_counts()
-            top = ", ".join(f"{label} ({count})" for label, count in diag.head(3).items())
+            c = verdicts[key]
+            n = sum(c.values())
+            top = ", ".join(f"{label} ({count})" for label, count in diagnoses.get(key, Counter()).most_common(3))
             out.append({
                 "key": key,
                 "label": rule.step.label,

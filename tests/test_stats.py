@@ -35,3 +35,23 @@ def test_grubbs_flags_and_does_not_flag():
 def test_terminal_digits_uniform_and_preferred():
     assert terminal_digit_test(list(range(10)) * 10)["p"] == pytest.approx(1.0)
     assert terminal_digit_test([0] * 40 + [5] * 40 + list(range(10)) * 2)["p"] < 1e-10
+
+
+def test_chi2_and_t_match_scipy():
+    # labcheck's own incomplete gamma and beta functions (no SciPy at start-up) against scipy.stats,
+    # installed for the tests only, over the degrees of freedom and tails labcheck uses.
+    import numpy as np
+    from scipy import stats as ref
+
+    from labcheck.reductions.distributions import chi2_cdf, chi2_sf, t_isf, t_sf
+
+    for k in range(1, 60):
+        for x in np.geomspace(1e-4, 400, 40):
+            for ours, theirs in ((chi2_sf(x, k), ref.chi2.sf(x, k)), (chi2_cdf(x, k), ref.chi2.cdf(x, k))):
+                if theirs > 1e-300:
+                    assert ours == pytest.approx(theirs, rel=1e-11)
+    for df in range(1, 60):
+        for q in np.geomspace(1e-9, 0.49, 25):
+            assert t_isf(q, df) == pytest.approx(ref.t.isf(q, df), rel=1e-11)
+        for t in np.linspace(-20, 20, 21):
+            assert t_sf(t, df) == pytest.approx(ref.t.sf(t, df), rel=1e-11, abs=1e-300)

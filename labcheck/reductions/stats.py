@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import stats
+from .distributions import chi2_cdf, chi2_sf, t_isf
 
 __all__ = ["scatter_test", "grubbs_critical", "grubbs_test", "terminal_digit_test"]
 
@@ -36,14 +36,14 @@ def scatter_test(readings, sigma: float) -> dict:
     sd = float(np.std(x, ddof=1))
     stat = (n - 1) * sd**2 / sigma**2
     return {"n": n, "sd": sd, "statistic": stat,
-            "p_high": float(stats.chi2.sf(stat, n - 1)), "p_low": float(stats.chi2.cdf(stat, n - 1))}
+            "p_high": chi2_sf(stat, n - 1), "p_low": chi2_cdf(stat, n - 1)}
 
 
 def grubbs_critical(n: int, alpha: float = 0.05) -> float:
     """Two-sided critical value of Grubbs' statistic for n readings at level α."""
     if n < 3:
         return math.inf
-    t = stats.t.isf(alpha / (2 * n), n - 2)
+    t = t_isf(alpha / (2 * n), n - 2)
     return (n - 1) / math.sqrt(n) * math.sqrt(t * t / (n - 2 + t * t))
 
 
@@ -71,4 +71,4 @@ def terminal_digit_test(digits) -> dict:
         return {"n": 0, "statistic": None, "p": None, "counts": counts.tolist()}
     expected = n / 10.0
     stat = float(np.sum((counts - expected) ** 2 / expected))
-    return {"n": n, "statistic": stat, "p": float(stats.chi2.sf(stat, 9)), "counts": counts.tolist()}
+    return {"n": n, "statistic": stat, "p": chi2_sf(stat, 9), "counts": counts.tolist()}
