@@ -1,6 +1,7 @@
 """Integrity leads on synthetic sections: known copies and fabrications are found; an honest
 section raises no more leads than the tests' nominal false-alarm rate predicts."""
 
+import random
 import math
 
 import pytest
@@ -77,3 +78,41 @@ def test_leads_never_reach_a_student_sheet(tmp_path):
     sheet = (out / "horizon_dip" / "graded" / "feedback" / "b2150-016.html").read_text(encoding="utf-8")
     assert "integrity" not in sheet.lower() and "b2150-017" not in sheet
     assert "b2150-017" in (out / "horizon_dip" / "graded" / "integrity.html").read_text(encoding="utf-8")
+
+
+def _brute_force(token_lists, threshold, min_shared):
+    sets = [set(t) for t in token_lists]
+    out = []
+    for i in range(len(sets)):
+        for j in range(i + 1, len(sets)):
+            shared = len(sets[i] & sets[j])
+            union = len(sets[i] | sets[j])
+            if union and shared >= min_shared and shared / union >= threshold:
+                out.append((i, j, shared, union))
+    return out
+
+
+@pytest.mark.parametrize("seed, copies", [(1, 0), (2, 0), (3, 12), (4, 40), (5, 3)])
+def test_prefix_filtering_finds_exactly_the_brute_force_pairs(seed, copies):
+    # Issue 12: candidate pairs by exact prefix filtering must equal a comparison of all pairs, on
+    # seeded sections of unique readings with and without planted near-copies (some sharing only
+    # readings common to many submissions, which the old inverted-index heuristic skipped).
+    from labcheck.integrity import JACCARD_LEAD, MIN_SHARED, similar_pairs
+
+    rng = random.Random(seed)
+    common = [f"dip_angle={v / 10:.1f}" for v in range(55, 65)]  # readings many honest groups write
+    lists = []
+    for _ in range(300):
+        own = [f"r{rng.randrange(100_000)}" for _ in range(rng.randint(2, 12))]
+        lists.append(own + rng.sample(common, rng.randint(0, 4)))
+    for _ in range(copies):  # a near-copy: most readings of another submission, one or two changed
+        src = list(rng.choice(lists))
+        for _ in range(rng.randint(0, 2)):
+            src[rng.randrange(len(src))] = f"x{rng.randrange(10**6)}"
+        lists.append(src)
+    lists.append(rng.sample(common, 6))
+    lists.append(rng.sample(common, 6))  # two built only of common readings
+    rng.shuffle(lists)
+    assert similar_pairs(lists, JACCARD_LEAD, MIN_SHARED) == _brute_force(lists, JACCARD_LEAD, MIN_SHARED)
+    for t in (0.5, 0.9, 1.0):
+        assert similar_pairs(lists, t, 1) == _brute_force(lists, t, 1)
