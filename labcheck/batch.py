@@ -22,6 +22,7 @@ import json
 import os
 import re
 import shutil
+import sys
 import traceback
 import zipfile
 from dataclasses import dataclass, field
@@ -202,8 +203,12 @@ def grade_section(
     force: bool = False,
     limits: Limits = Limits(),
     progress: Callable[[int, str], None] | None = None,
+    jobs: int = 1,
 ) -> RunSummary:
     """Grade every submission in ``inputs`` and write the outputs to ``out_dir``.
+
+    ``jobs`` > 1 grades and renders in that many worker processes; the outputs are byte-identical
+    to ``jobs=1`` (everything that depends on other files is done here, in input order).
 
     Raises :class:`InputError` for a missing or empty input, a bad roster, or an
     output folder that is an input; :class:`OutputExistsError` for a non-empty
@@ -225,7 +230,7 @@ def grade_section(
     try:
         staging.mkdir(parents=True)
         (staging / "feedback").mkdir()
-        run = _SectionRun(spec, out, staging, roster_rows, progress).grade(inputs, roster, limits)
+        run = _SectionRun(spec, out, staging, roster_rows, progress, jobs).grade(inputs, roster, limits)
         _commit(staging, out)
     except OSError as exc:
         shutil.rmtree(staging, ignore_errors=True)
@@ -247,16 +252,200 @@ class _Outcome:
     sheet_name: str | None = None
 
 
-class _SectionRun:
-    def __init__(self, spec: LabSpec, out: Path, staging: Path, roster_rows, progress):
-        self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
-        self.renderer = Renderer(spec)
+@dataclass
+class _Graded:
+    """One file graded by :class:`_FileGrader` (in any process): the record before identity is resolved."""
+
+    record: dict
+    html: str | None = None
+    evidence: object | None = None
+    traceback: str | None = None  # a fault of labcheck's own (the record is then an error record)
+    render_traceback: str | None = None
+
+
+class _FileGrader:
+    """Everything for one file that needs no other file: normalise, grade, render, collect evidence.
+
+    Pure per file, so it runs the same in the parent (``--jobs 1``) or in a worker process.  Never raises.
+    """
+
+    def __init__(self, spec: LabSpec, roster_ids: dict | None, generated: str):
+        self.spec = spec
+        self.renderer = Renderer(spec, generated)
         self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
+        self.roster_ids = roster_ids
+
+    def grade(self, item: RawSubmission) -> _Graded:
+        spec = self.spec
+        try:
+            if item.error:
+                record = unreadable_record(item.source, item.error)
+            else:
+                sub = normalise(item, spec, self.obs_keys, self.res_keys)
+                wrong = wrong_lab_message(sub, spec)
+                if wrong:
+                    record = unreadable_record(item.source, wrong)
+                    record.update(status="wrong_lab", student_id=sub.identity.get("student_id", ""),
+                                  name=sub.identity.get("name", ""))
+                else:
+                    record = grade_submission(sub, spec)
+            _id_from_path(record, item, self.roster_ids)
+            record["sheet"] = None
+            graded = _Graded(record)
+            if record["status"] == "graded":
+                self.render(graded)
+                graded.evidence = collect_evidence(record, item.rows, spec.shared_items)
+            return graded
+        except Exception:
+            record = unreadable_record(item.source, "labcheck failed on this file (a fault in labcheck, not in the "
+                                                    f"file); the traceback is in {ERROR_LOG}")
+            record.update(status="error", sheet=None)
+            try:
+                _id_from_path(record, item, self.roster_ids)
+            except Exception:
+                pass
+            return _Graded(record, traceback=f"{item.source}\n{traceback.format_exc()}")
+
+    def render(self, graded: _Graded) -> None:
+        try:
+            graded.html = self.renderer.sheet(graded.record)
+            graded.render_traceback = None
+        except Exception:  # a renderer fault must not lose the grade
+            graded.html = None
+            graded.render_traceback = f"{graded.record['submission']}: rendering the sheet failed\n{traceback.format_exc()}"
+
+
+# ---------------------------------------------------------------- worker processes (--jobs N)
+
+_WORKER: _FileGrader | None = None
+
+
+def _worker_init(spec_source: bytes, spec_path: str, roster_ids, generated: str) -> None:
+    global _WORKER
+    from .spec import parse_spec
+
+    _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster_ids, generated)
+
+
+def _worker_grade(item: RawSubmission) -> _Graded:
+    return _WORKER.grade(item)
+
+
+class _Pool:
+    """Files graded in worker processes, results handed back in input order, a bounded number in flight.
+
+    A worker that dies (a crash in C code, the OOM killer) breaks the pool: every file then in flight is
+    graded again alone in a fresh one-worker pool, so a file that kills its worker becomes that file's
+    ``error`` record and costs no other file (issue 8's isolation, across processes).
+    """
+
+    def __init__(self, jobs: int, spec: LabSpec, roster_ids, generated: str):
+        import concurrent.futures as cf
+        import multiprocessing
+
+        self._cf = cf
+        self._args = (spec.source, spec.path, roster_ids, generated)
+        self._context = multiprocessing.get_context("spawn" if sys.platform == "win32" else "fork")
+        self.jobs = jobs
+        self.window = 8 * jobs
+        self._executor = self._new(jobs)
+
+    def _new(self, workers: int):
+        return self._cf.ProcessPoolExecutor(workers, mp_context=self._context, initializer=_worker_init,
+                                            initargs=self._args)
+
+    def map(self, items):
+        """Yield (item, _Graded) in input order."""
+        from collections import deque
+
+        pending: deque = deque()
+        iterator = iter(items)
+        exhausted = False
+        while True:
+            while not exhausted and len(pending) < self.window:
+                try:
+                    item = next(iterator)
+                except StopIteration:
+                    exhausted = True
+                    break
+                pending.append((item, self._submit(item)))
+            if not pending:
+                return
+            item, future = pending.popleft()
+            yield item, self._result(item, future, pending)
+
+    def _submit(self, item):
+        if isinstance(item, Skipped):
+            return None
+        try:
+            return self._executor.submit(_worker_grade, item)
+        except self._cf.process.BrokenProcessPool:
+            self._executor = self._new(self.jobs)
+            return self._executor.submit(_worker_grade, item)
+
+    def _result(self, item, future, pending):
+        if future is None:
+            return None
+        try:
+            return future.result()
+        except self._cf.process.BrokenProcessPool:
+            # Re-grade this file and every other one in flight alone; then carry on with a fresh pool.
+            graded = self._alone(item)
+            for i, (other, _) in enumerate(pending):
+                pending[i] = (other, _Done(self._alone(other)) if not isinstance(other, Skipped) else None)
+            self._executor.shutdown(wait=False, cancel_futures=True)
+            self._executor = self._new(self.jobs)
+            return graded
+
+    def _alone(self, item) -> _Graded:
+        with self._new(1) as solo:
+            try:
+                return solo.submit(_worker_grade, item).result()
+            except self._cf.process.BrokenProcessPool:
+                record = unreadable_record(item.source, "labcheck's worker process died on this file (a fault in "
+                                                        f"labcheck, not in the file); see {ERROR_LOG}")
+                record.update(status="error", sheet=None)
+                return _Graded(record, traceback=f"{item.source}\nthe worker process grading this file died "
+                                                 "(killed, or a crash outside Python)")
+
+    def close(self) -> None:
+        self._executor.shutdown(wait=True, cancel_futures=True)
+
+
+class _Done:
+    """A result already at hand, shaped like a future."""
+
+    def __init__(self, value):
+        self._value = value
+
+    def result(self):
+        return self._value
+
+
+class _SectionRun:
+    def __init__(self, spec: LabSpec, out: Path, staging: Path, roster_rows, progress, jobs: int = 1):
+        self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
+        self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
+        self.renderer = Renderer(spec, self.generated)
         self.roster_rows = roster_rows
         self.roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
+        self.grader = _FileGrader(spec, self.roster_ids, self.generated)
         self.run = RunSummary(out)
         self.seen_ids: dict[str, str] = {}
         self.used_sheet_names: set[str] = set()
+        self.jobs = jobs if spec.source else 1  # a spec built in memory cannot be sent to a worker
+
+    def _graded_in_order(self, items):
+        """(item, _Graded or None for a skipped file), in input order, from this process or the workers."""
+        if self.jobs <= 1:
+            for item in items:
+                yield item, None if isinstance(item, Skipped) else self.grader.grade(item)
+            return
+        pool = _Pool(self.jobs, self.spec, self.roster_ids, self.generated)
+        try:
+            yield from pool.map(items)
+        finally:
+            pool.close()
 
     def grade(self, inputs, roster, limits: Limits) -> RunSummary:
         spec, run, staging = self.spec, self.run, self.staging
@@ -267,7 +456,7 @@ class _SectionRun:
         try:
             summaries, skipped, sheet_links, evidence = [], [], {}, []
             count = 0
-            for item in iter_submissions(inputs, limits, exclude=exclude):
+            for item, graded in self._graded_in_order(iter_submissions(inputs, limits, exclude=exclude)):
                 count += 1
                 if self.progress:
                     self.progress(count, item.source)
@@ -276,7 +465,7 @@ class _SectionRun:
                     run.n_skipped += 1
                     continue
                 run.n_files += 1
-                outcome = self._process(item)
+                outcome = self._finish(item, graded)
                 if outcome.sheet_html is not None:
                     _write_text(staging / "feedback" / outcome.sheet_name, outcome.sheet_html)
                     sheet_links[len(summaries)] = f"feedback/{outcome.sheet_name}"
@@ -336,55 +525,41 @@ class _SectionRun:
         self.run.n_unmatched += bool(summary.get("unmatched"))
 
     def _process(self, item: RawSubmission) -> _Outcome:
-        """Everything for one input inside one guard: a fault here is this file's, never the batch's."""
+        """Grade one input here and finish it (used by the tests and ``--jobs 1``)."""
+        return self._finish(item, self.grader.grade(item))
+
+    def _finish(self, item: RawSubmission, graded: _Graded) -> _Outcome:
+        """The in-order part: identity against the roster and the files before, the sheet's name, the JSON.
+
+        Inside one guard too: a fault here is this file's, never the batch's.
+        """
         spec = self.spec
         try:
-            if item.error:
-                record = unreadable_record(item.source, item.error)
-                sub = None
-            else:
-                sub = normalise(item, spec, self.obs_keys, self.res_keys)
-                wrong = wrong_lab_message(sub, spec)
-                if wrong:
-                    record = unreadable_record(item.source, wrong)
-                    record.update(status="wrong_lab", student_id=sub.identity.get("student_id", ""),
-                                  name=sub.identity.get("name", ""))
-                else:
-                    record = grade_submission(sub, spec)
-            self._id_from_path(record, item)
-            html = sheet = evidence = None
-            record["sheet"] = None
+            record = graded.record
+            if graded.traceback:
+                self.run.internal_errors.append(graded.traceback)
+            html, sheet, evidence = graded.html, None, graded.evidence
             if record["status"] == "graded":
+                before = (record["student_id"], record["name"], len(record["flags"]))
                 self._resolve_identity(record, item)
-                sheet = sheet_file_name(record["student_id"], self.used_sheet_names)
-                try:
-                    html = self.renderer.sheet(record)
-                    record["sheet"] = f"feedback/{sheet}"
-                except Exception:  # a renderer fault must not lose the grade
-                    self.run.internal_errors.append(f"{item.source}: rendering the sheet failed\n{traceback.format_exc()}")
+                if (record["student_id"], record["name"], len(record["flags"])) != before:
+                    # The sheet shows the identity and its flags: render it again with them (rare).
+                    self.grader.render(graded)
+                    html = graded.html
+                    evidence = collect_evidence(record, item.rows, spec.shared_items)
+                if graded.render_traceback:
+                    self.run.internal_errors.append(graded.render_traceback)
                     record["flags"].append({"row": None, "item": "", "value": "",
                                             "message": "labcheck could not render this sheet; the instructor has the details"})
-                evidence = collect_evidence(record, item.rows, spec.shared_items)
-            return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet)
+                sheet = sheet_file_name(record["student_id"], self.used_sheet_names)
+                record["sheet"] = f"feedback/{sheet}" if html is not None else None
+            return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet if html else None)
         except Exception:
             self.run.internal_errors.append(f"{item.source}\n{traceback.format_exc()}")
             record = unreadable_record(item.source, "labcheck failed on this file (a fault in labcheck, not in the "
                                                     f"file); the traceback is in {ERROR_LOG}")
             record.update(status="error", sheet=None)
-            try:
-                self._id_from_path(record, item)
-            except Exception:
-                pass
             return _Outcome(record_json(record), _summary(record, spec))
-
-    def _id_from_path(self, record: dict, item: RawSubmission) -> None:
-        if not record["student_id"] and self.roster_ids:
-            match = _roster_id_in_path(item.source, self.roster_ids)
-            if match:
-                record["student_id"] = match
-                record["name"] = record["name"] or self.roster_ids[match]["name"]
-                record["flags"].append({"row": None, "item": "student_id", "value": match,
-                                        "message": "student_id taken from the file's path in the export"})
 
     def _resolve_identity(self, record: dict, item: RawSubmission) -> None:
         if not record["student_id"]:
@@ -406,6 +581,16 @@ class _SectionRun:
                                     "message": f"another submission has the same student_id ({self.seen_ids[sid]})"})
         else:
             self.seen_ids[sid] = record["submission"]
+
+
+def _id_from_path(record: dict, item: RawSubmission, roster_ids) -> None:
+    if not record["student_id"] and roster_ids:
+        match = _roster_id_in_path(item.source, roster_ids)
+        if match:
+            record["student_id"] = match
+            record["name"] = record["name"] or roster_ids[match]["name"]
+            record["flags"].append({"row": None, "item": "student_id", "value": match,
+                                    "message": "student_id taken from the file's path in the export"})
 
 
 def _error_log(errors: list[str]) -> str:

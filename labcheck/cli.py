@@ -85,7 +85,7 @@ def cmd_grade(args) -> int:
     spec = _resolve_spec(args.spec)
     total = count_inputs(args.inputs) if all(Path(i).exists() for i in args.inputs) else 0
     progress = None if args.quiet else _progress(total, sys.stderr)
-    run = grade_section(spec, args.inputs, args.out, args.roster, force=args.force, progress=progress)
+    run = grade_section(spec, args.inputs, args.out, args.roster, force=args.force, progress=progress, jobs=args.jobs)
     if progress and total:
         sys.stderr.write("\n")
     _print_summary(run, spec, Path(args.out))
@@ -244,7 +244,7 @@ def cmd_demo(args) -> int:
         spec = load_spec(shipped_spec(section.lab))
         print(f"\nDemo section {section.code}: {zip_path.name} with {roster.name}")
         progress = None if args.quiet else _progress(count_inputs([zip_path]), sys.stderr)
-        run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress)
+        run = grade_section(spec, [zip_path], folder / "graded", roster, force=True, progress=progress, jobs=args.jobs)
         _print_summary(run, spec, folder / "graded")
         expected = (len(section.unreadable), 1 if section.missing_student else 0, 1 if section.wrong_lab else 0, 0)
         got = (run.n_unreadable, run.n_missing, run.n_wrong_lab, run.n_errors)
@@ -372,6 +372,19 @@ def _demo_tune_and_diff(spec: "LabSpec", zip_path: Path, roster: Path, folder: P
     print(f"  diff: {len(d.changed)} student(s) would change ({folder / 'diff_report.txt'})")
 
 
+def _jobs(text: str) -> int:
+    n = int(text) if text.isdigit() else 0
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"expected a whole number of processes, 1 or more, got {text!r}")
+    return n
+
+
+def _jobs_option(p) -> None:
+    cores = os.cpu_count() or 1
+    p.add_argument("--jobs", type=_jobs, default=cores, metavar="N",
+                   help=f"grade in N processes (default: this machine's {cores} cores); the outputs are the same for any N")
+
+
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
     parser = argparse.ArgumentParser(
@@ -392,6 +405,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--roster", metavar="FILE", help="roster CSV with student_id and name, to list missing students")
     p.add_argument("--force", action="store_true", help="replace labcheck's earlier outputs in DIR")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _jobs_option(p)
     p.set_defaults(func=cmd_grade)
 
     p = sub.add_parser("check", help="grade one submission and show a table here", epilog=EXAMPLES["check"],
@@ -435,6 +449,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--out", default="labcheck-demo", metavar="DIR", help="folder for the demo (default: ./labcheck-demo)")
     p.add_argument("--force", action="store_true", help="use DIR even if it holds other files")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _jobs_option(p)
     p.set_defaults(func=cmd_demo)
     return parser
 

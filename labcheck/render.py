@@ -63,7 +63,8 @@ def _points(p) -> str:
 
 
 class Renderer:
-    def __init__(self, spec: LabSpec):
+    def __init__(self, spec: LabSpec, generated: str | None = None):
+        """``generated`` is the time the outputs state (the parent's, so that every worker's sheets agree)."""
         self.spec = spec
         self.env = jinja2.Environment(
             loader=jinja2.FileSystemLoader(str(templates_dir())),
@@ -76,7 +77,7 @@ class Renderer:
         self.section_template = self.env.get_template("section.html")
         # Our own stylesheet, not student data: marked safe so quotes survive inside <style>.
         self.css = Markup((templates_dir() / "style.css").read_text(encoding="utf-8"))
-        self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
+        self.generated = generated or run_time().strftime("%Y-%m-%d %H:%M UTC")
 
     # ----------------------------------------------------------------- sheet
     def sheet(self, record: dict) -> str:

@@ -154,6 +154,7 @@ class LabSpec:
     reported_sigma: tuple = ()  # step keys whose uncertainty students report (as "<key>_sigma")
     reported_sigma_points: float = 1.0
     sigma_within_factor: float = 2.0
+    source: bytes = b""  # the TOML it was read from: how a worker process rebuilds the same spec
 
     @property
     def observation_sigma(self) -> dict[str, float]:
@@ -535,6 +536,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     if c.problems:
         raise SpecError(path, c.problems)
     return LabSpec(
+        source=data,
         path=path,
         sha256=sha,
         id=lab_id,
