@@ -32,7 +32,7 @@ from typing import Callable
 from . import __version__
 from .grading import grade_submission, missing_record, safe_id, unreadable_record
 from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
-from .ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster
+from .ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
 from .labmatch import wrong_lab_message
 from .outputs import ResultsWriter, gradebook_row, record_json, run_time, write_gradebook
 from .render import Renderer
@@ -154,7 +154,13 @@ def _check_output_folder(out: Path, inputs: list[str | Path], force: bool) -> No
 
 
 def _commit(staging: Path, out: Path) -> None:
-    """Move the finished staging folder into place, replacing the previous run only now."""
+    """Move the finished staging folder into place, replacing the previous run only now.
+
+    Everything written is synced first (one ``sync`` rather than one per file), so that even after a power
+    cut the folder that is renamed into place holds the whole run.
+    """
+    if hasattr(os, "sync"):
+        os.sync()
     if out.exists():
         previous = _previous(out)
         os.replace(out, previous)
@@ -180,10 +186,10 @@ def _fsync_dir(path: Path) -> None:
 
 
 def _write_text(path: Path, text: str) -> None:
+    """Write one output into the staging folder.  No fsync per file: a kill cannot lose what the page cache
+    holds, and :func:`_commit` syncs the whole staging folder once before it moves it into place."""
     with open(path, "w", encoding="utf-8") as fh:
         fh.write(text)
-        fh.flush()
-        os.fsync(fh.fileno())
 
 
 def _write_failure(folder: Path, exc: OSError) -> OutputWriteError:
@@ -275,9 +281,12 @@ class _FileGrader:
         self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
         self.roster_ids = roster_ids
 
-    def grade(self, item: RawSubmission) -> _Graded:
+    def grade(self, item) -> _Graded:
+        """Grade one file (a :class:`RawSubmission`, or :class:`Unparsed` bytes parsed here)."""
         spec = self.spec
         try:
+            if isinstance(item, Unparsed):
+                item = item.parse()
             if item.error:
                 record = unreadable_record(item.source, item.error)
             else:
@@ -456,7 +465,8 @@ class _SectionRun:
         try:
             summaries, skipped, sheet_links, evidence = [], [], {}, []
             count = 0
-            for item, graded in self._graded_in_order(iter_submissions(inputs, limits, exclude=exclude)):
+            items = iter_submissions(inputs, limits, exclude=exclude, parse=False)  # parsed where graded
+            for item, graded in self._graded_in_order(items):
                 count += 1
                 if self.progress:
                     self.progress(count, item.source)
@@ -546,7 +556,8 @@ class _SectionRun:
                     # The sheet shows the identity and its flags: render it again with them (rare).
                     self.grader.render(graded)
                     html = graded.html
-                    evidence = collect_evidence(record, item.rows, spec.shared_items)
+                    if evidence is not None:
+                        evidence.key, evidence.name = record["student_id"], record["name"] or ""
                 if graded.render_traceback:
                     self.run.internal_errors.append(graded.render_traceback)
                     record["flags"].append({"row": None, "item": "", "value": "",

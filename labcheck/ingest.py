@@ -29,6 +29,7 @@ from typing import Iterator
 
 __all__ = [
     "Limits",
+    "Unparsed",
     "Row",
     "RawSubmission",
     "Skipped",
@@ -105,6 +106,19 @@ class RawSubmission:
     decimal_hint: str | None = None
 
 
+@dataclass
+class Unparsed:
+    """A submission file's bytes, read but not yet parsed (``iter_submissions(parse=False)``): parsing,
+    the costly part, can then happen in a worker process (:func:`parse`)."""
+
+    source: str
+    data: bytes
+    limits: "Limits"
+
+    def parse(self) -> "RawSubmission":
+        return read_rows(self.data, self.source, self.limits)
+
+
 @dataclass(frozen=True)
 class Skipped:
     """A file deliberately passed over (operating-system clutter), with the reason."""
@@ -121,16 +135,19 @@ def _is_junk(parts: tuple[str, ...]) -> bool:
 
 
 def iter_submissions(
-    inputs: list[str | Path], limits: Limits = Limits(), exclude: set[Path] | None = None
+    inputs: list[str | Path], limits: Limits = Limits(), exclude: set[Path] | None = None, *, parse: bool = True
 ) -> Iterator[RawSubmission | Skipped]:
     """Yield every submission (or skipped file) found in ``inputs``, in a stable order.
 
     Each input is a submission file, a folder (searched recursively) or a
     zip archive.  Files at or under a path in ``exclude`` (the output folder,
     the roster) are not read.  Raises :class:`InputError` only for an input path that does
-    not exist; everything inside is yielded, readable or not.
+    not exist; everything inside is yielded, readable or not.  With ``parse=False`` files that were
+    read are yielded as :class:`Unparsed` (their bytes), for a worker process to parse.
     """
     excluded = [p.resolve() for p in (exclude or set())]
+    finish = (lambda data, shown: read_rows(data, shown, limits)) if parse else (
+        lambda data, shown: Unparsed(shown, data, limits))
 
     def is_excluded(p: Path) -> bool:
         r = p.resolve()
@@ -151,17 +168,17 @@ def iter_submissions(
                 if _is_junk(rel.parts):
                     yield Skipped(display, "operating-system or archiver clutter")
                     continue
-                yield from _from_file(file, display, limits)
+                yield from _from_file(file, display, limits, finish)
         elif not is_excluded(path):
-            yield from _from_file(path, path.name, limits)
+            yield from _from_file(path, path.name, limits, finish)
 
 
-def _from_file(path: Path, display: str, limits: Limits) -> Iterator[RawSubmission | Skipped]:
+def _from_file(path: Path, display: str, limits: Limits, finish) -> Iterator[RawSubmission | Skipped]:
     if path.is_symlink():
         yield RawSubmission(display, error="a symbolic link; not followed")
         return
     if path.suffix.lower() == ".zip":
-        yield from _from_zip(path, display, limits)
+        yield from _from_zip(path, display, limits, finish)
         return
     try:
         size = path.stat().st_size
@@ -176,7 +193,7 @@ def _from_file(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissi
     if len(data) > limits.max_file_bytes:
         yield RawSubmission(display, error=f"file too large (over {limits.max_file_bytes} bytes)")
         return
-    yield read_rows(data, display, limits)
+    yield finish(data, display)
 
 
 def _safe_member_name(name: str) -> str | None:
@@ -228,7 +245,7 @@ def zip_directory_size(fh) -> tuple[int, int] | None:
 _CD_BYTES_PER_MEMBER = 46 + 1024
 
 
-def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmission | Skipped]:
+def _from_zip(path: Path, display: str, limits: Limits, finish) -> Iterator[RawSubmission | Skipped]:
     try:
         with open(path, "rb") as fh:
             declared = zip_directory_size(fh)
@@ -292,7 +309,7 @@ def _from_zip(path: Path, display: str, limits: Limits) -> Iterator[RawSubmissio
                 yield RawSubmission(shown, error=f"refused: expands beyond {limits.max_file_bytes} bytes")
                 continue
             total += len(data)
-            yield read_rows(data, shown, limits)
+            yield finish(data, shown)
 
 
 def read_rows(data: bytes, source: str, limits: Limits = Limits()) -> RawSubmission:
@@ -399,27 +416,14 @@ def _csv_table(data: bytes, limits: Limits, raw: RawSubmission, tab_default: boo
     return table
 
 
-def _xlsx_cell_text(value) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, bool):
-        return "TRUE" if value else "FALSE"
-    if isinstance(value, float):
-        return str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value)
-    if hasattr(value, "isoformat"):
-        return value.isoformat()
-    return str(value)
-
-
-_FORMULA_RE = re.compile(rb"<(?:\w+:)?f[\s>/]")
-
-
 def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[str]]:
-    """The sheet holding the header row, as text cells, read within the caps.
+    """The sheet holding the header row, as text cells, read within the caps (see :mod:`labcheck.xlsx`).
 
-    Only the columns up to the last of ours are materialised, so a cell typed
-    in the last column of a row costs nothing; the row cap stops reading.
+    Only the columns up to the last of ours are read, so a cell typed in the last column of a row costs
+    nothing; reading stops past the row cap.
     """
+    from . import xlsx
+
     try:
         zf = zipfile.ZipFile(io.BytesIO(data))
         infos = zf.infolist()
@@ -434,92 +438,45 @@ def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[st
     if big:
         raise _Unreadable(f"the workbook part {big[0].filename} expands to {big[0].file_size} bytes; "
                           f"the cap is {limits.max_xlsx_part_bytes} (a submission needs far less)")
-    has_formulas = False
     try:
-        for info in infos:
-            if info.filename.startswith("xl/worksheets/") and info.filename.endswith(".xml"):
-                with zf.open(info) as fh:
-                    part = fh.read(limits.max_xlsx_part_bytes + 1)
-                if len(part) > limits.max_xlsx_part_bytes:
-                    raise _Unreadable(f"the workbook part {info.filename} expands beyond {limits.max_xlsx_part_bytes} bytes")
-                has_formulas = has_formulas or bool(_FORMULA_RE.search(part))
-    except _Unreadable:
-        raise
-    except Exception as exc:
-        raise _Unreadable(f"not a readable XLSX workbook ({type(exc).__name__})") from None
-
-    import openpyxl  # imported here: CSV-only runs never pay for it
-
-    try:
-        wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=True)
-    except Exception as exc:  # openpyxl raises many types for a corrupt workbook
-        raise _Unreadable(f"not a readable XLSX workbook ({type(exc).__name__})") from None
-    try:
-        sheets = wb.worksheets[: limits.max_xlsx_sheets]
+        book = xlsx.Book(zf)
+        sheets = book.sheets[: limits.max_xlsx_sheets]
         if not sheets:
             raise _Unreadable("the workbook has no worksheet")
-        chosen, width = _find_sheet(sheets)
+        chosen, width = None, len(COLUMNS) + 1
+        for name, part in sheets:
+            head = book.read_sheet(part, 64, _HEADER_SEARCH_ROWS)
+            found = _header_width(head)
+            if found:
+                chosen, width = (name, part), found
+                break
         if chosen is None:
-            chosen, width = sheets[0], len(COLUMNS) + 1
-        elif chosen is not sheets[0]:
-            raw.notes.append(f"Read the sheet {chosen.title!r}, where the header row is; the workbook's first sheet "
-                             f"{sheets[0].title!r} has none.")
-        table = _read_sheet(chosen, width, limits)
+            chosen = sheets[0]
+        elif chosen != sheets[0]:
+            raw.notes.append(f"Read the sheet {chosen[0]!r}, where the header row is; the workbook's first sheet "
+                             f"{sheets[0][0]!r} has none.")
+        return book.read_sheet(chosen[1], width, 2 * limits.max_rows + _HEADER_SEARCH_ROWS + 1)
+    except xlsx.XlsxError as exc:
+        raise _Unreadable(f"the workbook cannot be read: {exc}; open it in a spreadsheet program and save it "
+                          "again, or export it as CSV") from None
     except _Unreadable:
         raise
-    except Exception as exc:  # a cell openpyxl cannot convert (bad number, date, shared-string index)
-        raise _Unreadable(f"the workbook has a cell that cannot be read ({type(exc).__name__}: {exc}); "
-                          "open it in a spreadsheet program and save it again, or export it as CSV") from None
-    finally:
-        wb.close()
-    if has_formulas:
-        _flag_unsaved_formulas(data, chosen.title, width, table, limits)
-    return table
+    except Exception as exc:  # a damaged part the parser still trips on
+        raise _Unreadable(f"not a readable XLSX workbook ({type(exc).__name__})") from None
 
 
-def _find_sheet(sheets) -> tuple[object | None, int]:
-    """The first sheet with a header row in its first rows, and how many columns to read."""
-    for ws in sheets:
-        for row in ws.iter_rows(max_row=_HEADER_SEARCH_ROWS, max_col=64, values_only=True):
-            names = [_xlsx_cell_text(v).strip().lower() for v in row]
-            if all(col in names for col in REQUIRED_COLUMNS):
-                last = max(names.index(c) for c in COLUMNS if c in names)
-                return ws, last + 1
-    return None, 0
-
-
-def _read_sheet(ws, width: int, limits: Limits) -> list[list[str]]:
-    table = []
-    filled = 0
-    for row in ws.iter_rows(max_col=width, values_only=True):
-        cells = [_xlsx_cell_text(v) for v in row]
-        table.append(cells)
-        filled += any(c.strip() for c in cells)
-        # Stop one row past the cap; blank rows count too, up to a bound (a cell at row 1,048,576).
-        if filled > limits.max_rows + 1 or len(table) > 2 * limits.max_rows + _HEADER_SEARCH_ROWS:
-            break
-    return table
+def _header_width(rows: list[list[str]]) -> int | None:
+    """How many columns to read: up to the last of ours in the first header row, or None without one."""
+    for row in rows:
+        names = [c.strip().lower() for c in row]
+        if all(col in names for col in REQUIRED_COLUMNS):
+            return max(names.index(c) for c in COLUMNS if c in names) + 1
+    return None
 
 
 _UNSAVED_FORMULA = ("a formula with no saved value (the file was never calculated and saved by a spreadsheet "
                     "program): open it in one, let it calculate, and save it, or type the value")
-
-
-def _flag_unsaved_formulas(data: bytes, title: str, width: int, table: list[list[str]], limits: Limits) -> None:
-    """Mark cells that hold a formula but no saved value, which data_only reading sees as blank."""
-    import openpyxl
-
-    wb = openpyxl.load_workbook(io.BytesIO(data), read_only=True, data_only=False)
-    try:
-        for r, row in enumerate(_read_sheet(wb[title], width, limits)):
-            for c, text in enumerate(row):
-                if text.startswith("=") and r < len(table) and c < len(table[r]) and table[r][c] == "":
-                    table[r][c] = _UNSAVED_FORMULA_MARK
-    finally:
-        wb.close()
-
-
-_UNSAVED_FORMULA_MARK = "\x00unsaved-formula\x00"  # cannot come from a cell: XML forbids NUL
+_UNSAVED_FORMULA_MARK = "\x00unsaved-formula\x00"  # the same mark as labcheck.xlsx.UNSAVED_FORMULA
 
 
 def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits) -> RawSubmission:
@@ -559,7 +516,10 @@ def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits)
         texts = [cells[j] if j is not None and j < len(cells) else "" for j in columns]
         issue = ""
         if _UNSAVED_FORMULA_MARK in texts:
-            issue = _UNSAVED_FORMULA
+            # A formula with no saved value in part, item, value or unit makes the row unusable; in the
+            # note it only loses the note.
+            if _UNSAVED_FORMULA_MARK in texts[:4]:
+                issue = _UNSAVED_FORMULA
             texts = ["" if t == _UNSAVED_FORMULA_MARK else t for t in texts]
         part, item, value, unit, note = (t.strip() for t in texts)
         rows.append(Row(start + offset + 2, part.lower(), item, value, unit, note, issue))

@@ -81,8 +81,6 @@ class ResultsWriter:
         for key, value in (tail or {}).items():
             self._fh.write(f",\n {json.dumps(key)}: {json.dumps(value, ensure_ascii=False, default=_jsonable)}")
         self._fh.write("\n}\n")
-        self._fh.flush()
-        os.fsync(self._fh.fileno())
         self._fh.close()
 
     def abandon(self) -> None:
@@ -143,5 +141,3 @@ def write_gradebook(path: Path, spec: LabSpec, rows: list[list]) -> None:
         writer.writerow(gradebook_columns(spec))
         for row in rows:
             writer.writerow(["" if v is None else v for v in row])
-        fh.flush()
-        os.fsync(fh.fileno())

@@ -1,0 +1,133 @@
+"""Department scale: labcheck against its I/O floor, measured in one run.
+
+    python benchmarks/bench_scale.py [--sizes 1000 10000 100000] [--jobs N]
+
+For each size, builds a section of submissions mixed over the eight shipped labs (a quarter of them
+XLSX), every one with readings of its own (one reading of each demo group is moved by a unit in its
+last digit, so no two submissions share their readings and the integrity screen sees a real section),
+then in the same run times:
+
+* the I/O floor: every input file read, and as many bytes as labcheck wrote written to as many
+  files, each followed by ``sync``;
+* ``labcheck grade`` (a subprocess, as an instructor runs it, with ``--jobs``) of the whole section,
+  lab by lab, into one output folder each.
+
+It prints the ratio to the floor, the time per submission at each size and its ratio to the smallest
+size, and the peak resident memory of the grading processes.  The machine is shared and noisy: read
+the ratios.
+"""
+
+from __future__ import annotations
+
+import argparse
+import io
+import os
+import random
+import resource
+import shutil
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+from labcheck.demo import SECTIONS, csv_bytes, xlsx_bytes
+
+
+def _moved(value: str, rng: random.Random) -> str:
+    """The value with its last digit moved by one (a reading of its own), when it is a plain number."""
+    v = value.strip()
+    if not v or not v[-1].isdigit() or any(c.isalpha() for c in v.replace("e", "")):
+        return value
+    last = int(v[-1])
+    return v[:-1] + str((last + rng.choice((1, -1))) % 10)
+
+
+def build(folder: Path, n: int, seed: int = 12) -> dict[str, Path]:
+    """n submissions mixed over the labs, in one folder per lab; returns lab -> folder."""
+    rng = random.Random(seed)
+    groups = {s.lab: [g for g in s.generate() if g.number not in s.unreadable] for s in SECTIONS}
+    folders = {}
+    for i in range(n):
+        section = SECTIONS[i % len(SECTIONS)]
+        group = groups[section.lab][(i // len(SECTIONS)) % len(groups[section.lab])]
+        rows = [list(r) + [""] * (5 - len(r)) for r in group.rows]
+        readings = [k for k, r in enumerate(rows) if r[0] == "observation"]
+        if readings:
+            k = rng.choice(readings)
+            rows[k][2] = _moved(str(rows[k][2]), rng)
+        for r in rows:
+            if r[1] == "student_id":
+                r[2] = f"s{i:07d}"
+        folder_lab = folders.setdefault(section.lab, folder / section.lab)
+        folder_lab.mkdir(parents=True, exist_ok=True)
+        xlsx = i % 4 == 3
+        data = xlsx_bytes([tuple(r) for r in rows]) if xlsx else csv_bytes([tuple(r) for r in rows])
+        (folder_lab / f"sub_{i:07d}.{'xlsx' if xlsx else 'csv'}").write_bytes(data)
+    return folders
+
+
+def _tree_bytes(folder: Path) -> tuple[int, int]:
+    files = [p for p in folder.rglob("*") if p.is_file()]
+    return len(files), sum(p.stat().st_size for p in files)
+
+
+def io_floor(inputs: list[Path], n_out_files: int, out_bytes: int, scratch: Path) -> float:
+    """Seconds to read every input file and write n_out_files files totalling out_bytes, each phase synced."""
+    subprocess.run(["sync"], check=False)
+    t0 = time.perf_counter()
+    total = 0
+    for folder in inputs:
+        for p in sorted(folder.rglob("*")):
+            if p.is_file():
+                total += len(p.read_bytes())
+    scratch.mkdir(parents=True, exist_ok=True)
+    chunk = b"x" * max(1, out_bytes // max(1, n_out_files))
+    for k in range(n_out_files):
+        (scratch / f"f{k:07d}").write_bytes(chunk)
+    subprocess.run(["sync"], check=False)
+    return time.perf_counter() - t0
+
+
+def grade_all(folders: dict[str, Path], out_root: Path, jobs: int) -> tuple[float, float]:
+    """Wall seconds to grade every lab's folder with the CLI, and the peak RSS (MiB) of those processes."""
+    t0 = time.perf_counter()
+    for lab, folder in folders.items():
+        cmd = [sys.executable, "-m", "labcheck.cli", "grade", lab, str(folder), "--out", str(out_root / lab),
+               "--quiet", "--jobs", str(jobs)]
+        proc = subprocess.run(cmd, capture_output=True, text=True)
+        if proc.returncode not in (0, 1):
+            raise SystemExit(f"labcheck failed on {lab}: {proc.stderr[-2000:]}")
+    subprocess.run(["sync"], check=False)
+    elapsed = time.perf_counter() - t0
+    peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+    return elapsed, peak
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 10000])
+    ap.add_argument("--jobs", type=int, default=os.cpu_count() or 1)
+    args = ap.parse_args()
+    rows = []
+    for n in args.sizes:
+        root = Path(tempfile.mkdtemp(prefix=f"labcheck-bench-{n}-"))
+        try:
+            folders = build(root / "in", n)
+            elapsed, peak = grade_all(folders, root / "out", args.jobs)
+            n_out, out_bytes = _tree_bytes(root / "out")
+            floor = io_floor(list(folders.values()), n_out, out_bytes, root / "floor")
+            rows.append((n, elapsed, floor, peak, n_out, out_bytes))
+        finally:
+            shutil.rmtree(root, ignore_errors=True)
+    base = rows[0][1] / rows[0][0]
+    print(f"{'N':>8} {'grade s':>9} {'floor s':>8} {'x floor':>8} {'ms/sub':>8} {'vs first':>9} {'peak RSS MiB':>13}"
+          f"  (--jobs {args.jobs}; 8 labs, a quarter XLSX)")
+    for n, elapsed, floor, peak, n_out, out_bytes in rows:
+        print(f"{n:>8} {elapsed:>9.2f} {floor:>8.2f} {elapsed / floor:>8.1f} {1000 * elapsed / n:>8.3f} "
+              f"{(elapsed / n) / base:>9.2f} {peak:>13.0f}")
+    print("peak RSS is the largest of the grading processes so far in this run (the parent; workers are smaller)")
+
+
+if __name__ == "__main__":
+    main()
