@@ -41,7 +41,8 @@ from .submission import Reading, Submission
 from .units import (UNITS, canonical_unit, dms_seconds_decimals, format_dms, format_fixed, format_value, from_si,
                     half_unit_si, parse_quantity, to_si)
 
-__all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record", "GENERIC_SLIPS", "safe_id"]
+__all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record",
+           "GENERIC_SLIPS", "safe_id", "StepTrace", "judge"]
 
 
 @dataclass(frozen=True)
@@ -320,6 +321,7 @@ class _MethodRun:
     verdicts: dict[str, str] = field(default_factory=dict)
     sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
     own_values: dict = field(default_factory=dict)  # step id -> recomputed from the student's own earlier results
+    traces: list = field(default_factory=list)  # StepTrace per step, in order (for labcheck tune)
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
         """The step's inputs with the student's own reported earlier values, if they reported any."""
@@ -333,6 +335,45 @@ class _MethodRun:
         return own if all(n in own for n in step.inputs) else None
 
 
+@dataclass
+class StepTrace:
+    """What a step's verdict depends on, kept so that ``labcheck tune`` can re-judge it under another
+    tolerance without regrading (see :func:`judge`).  Values in SI."""
+
+    key: str
+    step_id: str
+    points: float  # the spec's points for the step
+    reported: float | None
+    expected: float | None
+    unbounded: bool  # the recomputation is +infinite (runs that agree to the last digit)
+    widen: float
+    candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
+    reported_steps: frozenset  # the method's steps the student reported
+
+    def honest_values(self) -> tuple:
+        """The candidates, computed on first need (most steps match the recomputed value and never need them)."""
+        if callable(self.candidates):
+            self.candidates = tuple(self.candidates())
+        return self.candidates
+
+
+def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]:
+    """The verdict of a step under tolerance ``tol``, given the verdicts of the earlier steps: the grading
+    rule itself (``_verdict`` words it; ``tune`` re-applies it), and the earlier steps a match used."""
+    rep, exp, widen = trace.reported, trace.expected, trace.widen
+    if rep is None:
+        return "missing", None
+    if exp is not None and tol.matches(rep, exp, widen):
+        return "correct", None
+    if exp is None and trace.unbounded and rep > 0:
+        return "correct", None
+    for value, used in trace.honest_values():
+        if tol.matches(rep, value, widen):
+            wrong = [u for u in used if verdicts.get(u) in ("wrong", "carried") and u in trace.reported_steps]
+            return ("carried" if wrong else "correct"), used
+    return ("missing" if exp is None else "wrong"), None
+
+
 def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref_inputs, own_inputs, sub: Submission,
              widen: float = 0.0, widen_text: str = ""):
     """(verdict, explanation, diagnosis) for one step; see the module docstring for the rules.
@@ -343,31 +384,34 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     step, tol = rule.step, rule.tolerance
     tol_text = tol.text + widen_text
     if rep is None:
+        run.traces.append(StepTrace(rule.key, step.id, rule.points, None, exp, False, widen, (), frozenset()))
         also = ""
         if exp is None and step.id in run.why_missing:
             also = f" It cannot be recomputed from your observations either: {run.why_missing[step.id]}."
         if rule.key in sub.bad_items:
             return "missing", "Your value could not be read (see the notes on your rows)." + also, None
         return "missing", "Not reported." + also, None
-    if exp is not None and tol.matches(rep.si, exp, widen):
+    trace = StepTrace(rule.key, step.id, rule.points, rep.si, exp, run.missing_reasons.get(step.id) == (UNBOUNDED,),
+                      widen, lambda: _candidates(run, step, ref_inputs), frozenset(run.reported_si))
+    run.traces.append(trace)
+    verdict, matched = judge(tol, trace, run.verdicts)
+    if verdict == "correct" and matched is None and exp is not None:
         return "correct", f"Matches the value recomputed from your observations (tolerance {tol_text}).", None
-    if exp is None and run.missing_reasons.get(step.id) == (UNBOUNDED,) and rep.si > 0:
+    if verdict == "correct" and matched is None:
         return "correct", ("Recomputed from your observations this value is unbounded (the quantities it divides by "
                            "agree to the last digit), so any positive value you report is consistent with them."), None
-    matched = next((used for value, used in _candidates(run, step, ref_inputs) if tol.matches(rep.si, value, widen)), None)
-    if matched is not None:
-        # Carried forward only from an earlier step you reported and got wrong.
-        wrong_upstream = [u for u in sorted(matched) if run.verdicts.get(u) in ("wrong", "carried") and u in run.reported_si]
-        if not wrong_upstream:
-            if exp is None:
-                used = ", ".join(run.method.step(u).label for u in sorted(matched)) or "earlier steps"
-                return "correct", (
-                    f"Follows correctly from your own value of {used} (tolerance {tol_text}); it cannot be recomputed "
-                    f"from your observations: {run.why_missing.get(step.id, 'inputs missing')}."
-                ), None
+    if verdict == "correct":
+        if exp is None:
+            used = ", ".join(run.method.step(u).label for u in sorted(matched)) or "earlier steps"
             return "correct", (
-                f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol_text})."
+                f"Follows correctly from your own value of {used} (tolerance {tol_text}); it cannot be recomputed "
+                f"from your observations: {run.why_missing.get(step.id, 'inputs missing')}."
             ), None
+        return "correct", (
+            f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol_text})."
+        ), None
+    if verdict == "carried":
+        wrong_upstream = [u for u in sorted(matched) if run.verdicts.get(u) in ("wrong", "carried") and u in run.reported_si]
         names = ", ".join(run.method.step(u).label for u in wrong_upstream)
         return "carried", (
             f"Differs from the recomputed value, but follows correctly from your own value of {names}: "
@@ -779,7 +823,8 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
     return shown
 
 
-def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[dict], dict, list[dict], list[dict]]:
+def _grade_method(method: Method, sub: Submission, spec: LabSpec,
+                  traces: list | None = None) -> tuple[list[dict], dict, list[dict], list[dict]]:
     obs, missing_obs, used, obs_notes = _gather_observations(method, sub, spec)
     consts, consts_text, const_notes = _constants(method, sub, spec)
     chain = evaluate_chain(method, obs, consts, missing_obs)
@@ -836,6 +881,8 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec) -> tuple[list[
             "diagnosis": diagnosis,
             "explanation": explanation,
         })
+    if traces is not None:
+        traces.append((method.id, run.traces))
     own_sigma = _reported_sigmas(run, sub)
     accuracy, reference_notes = _accuracy(run, sub)
     quality = _quality(method, spec, used, obs_notes + const_notes, chain.expected) + reference_notes
@@ -864,15 +911,18 @@ def _attempted(method: Method, sub: Submission, spec: LabSpec) -> bool:
     return any(r.method.id == method.id and (r.key in sub.results or r.key in sub.bad_items) for r in spec.steps.values())
 
 
-def grade_submission(sub: Submission, spec: LabSpec) -> dict:
-    """Grade a normalised submission; returns its results record (see docs/formats.md)."""
+def grade_submission(sub: Submission, spec: LabSpec, traces: list | None = None) -> dict:
+    """Grade a normalised submission; returns its results record (see docs/outputs.md).
+
+    ``traces``, when given, receives (method id, [StepTrace, ...]) per graded method, for ``tune``.
+    """
     if spec.methods_required == "all":
         methods = list(spec.methods)
     else:
         methods = [m for m in spec.methods if _attempted(m, sub, spec)] or list(spec.methods)
     steps, accuracy, quality, observations = [], {}, [], []
     for m in methods:
-        s, a, q, o = _grade_method(m, sub, spec)
+        s, a, q, o = _grade_method(m, sub, spec, traces)
         steps += s
         if a is not None:
             accuracy[m.id] = a

@@ -5,8 +5,8 @@ computation tolerance and for the accuracy rule, how many submissions pass
 and how the section's score distribution moves at ×¼, ×½, ×1, ×2 and ×4 of
 the current value; it suggests accuracy bands from the section's own
 propagated uncertainties.  A step's verdict depends only on its own
-tolerance and the earlier steps' values, so each sweep regrades the steps
-only and keeps every other part of each score as graded.
+tolerance, the earlier steps' verdicts and values, so each submission is
+graded once and every sweep point re-judges the stored values.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ import re
 import statistics
 from dataclasses import dataclass, replace
 
-from .grading import grade_submission
+from .grading import grade_submission, judge
 from .spec import AccuracyRule, LabSpec, Tolerance
 from .units import parse_quantity, format_value
 
@@ -54,34 +54,50 @@ def _scaled(tol: Tolerance, m: float) -> Tolerance:
 
 
 def tune(spec: LabSpec, submissions: list) -> TuneReport:
-    """Sweep every step's tolerance and the accuracy bands over ``submissions`` (normalised)."""
-    base = [grade_submission(sub, spec) for sub in submissions]
+    """Sweep every step's tolerance and the accuracy bands over ``submissions`` (normalised).
+
+    Each submission is graded once; every sweep point then re-judges the stored values (the grader's own
+    :func:`~labcheck.grading.judge`), step by step in method order so that "carried" follows the earlier
+    verdicts: the figures equal those of a full regrade at each point (tests/test_tune.py), without
+    regrading, rendering or quality tests per point.
+    """
+    traced = []
+    for sub in submissions:
+        traces: list = []
+        traced.append((grade_submission(sub, spec, traces), traces))
+    base = [rec for rec, _ in traced]
     pass_pct = 100.0 * spec.pass_fraction
-    fast = replace(spec, observations={k: replace(v, sigma_si=None) for k, v in spec.observations.items()},
-                   constant_sigma={}, accuracy=None)  # steps only: no propagation needed
 
     def summarise(scores, maxes):
         pcts = [100.0 * s / m for s, m in zip(scores, maxes) if m]
         return (statistics.fmean(pcts) if pcts else 0.0), sum(p >= pass_pct - 1e-9 for p in pcts)
 
+    factor = {"correct": 1.0, "carried": spec.carried_fraction}
     steps = {}
     for key, rule in spec.steps.items():
         rows = []
         for m in MULTIPLIERS:
-            tried = replace(fast, steps={**fast.steps, key: replace(rule, tolerance=_scaled(rule.tolerance, m))})
+            tried = _scaled(rule.tolerance, m)
             verdicts, scores, maxes = [], [], []
-            for sub, rec in zip(submissions, base):
-                new = grade_submission(sub, tried)
-                new_steps = {s["id"]: s for s in new["steps"]}
-                old_points = sum(s["points"] for s in rec["steps"])
-                new_points = sum(s["points"] for s in new["steps"])
-                scores.append(rec["score"] - old_points + new_points)
+            for rec, traces in traced:
+                score = rec["score"]
+                for method_id, method_traces in traces:
+                    if method_id != rule.method.id:
+                        continue
+                    judged: dict = {}
+                    for t in method_traces:
+                        tol = tried if t.key == key else spec.steps[t.key].tolerance
+                        verdict, _ = judge(tol, t, judged)
+                        judged[t.step_id] = verdict
+                        old = next(s["points"] for s in rec["steps"] if s["id"] == t.key)
+                        score += round(t.points * factor.get(verdict, 0.0), 3) - old
+                        if t.key == key:
+                            verdicts.append(verdict)
+                scores.append(score)
                 maxes.append(rec["max_score"])
-                if key in new_steps:
-                    verdicts.append(new_steps[key]["verdict"])
             mean, n_pass = summarise(scores, maxes)
-            rows.append(SweepRow(m, _scaled(rule.tolerance, m).text, verdicts.count("correct"),
-                                 verdicts.count("carried"), verdicts.count("wrong"), mean, n_pass))
+            rows.append(SweepRow(m, tried.text, verdicts.count("correct"), verdicts.count("carried"),
+                                 verdicts.count("wrong"), mean, n_pass))
         steps[key] = rows
 
     accuracy_rows = []

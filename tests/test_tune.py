@@ -1,3 +1,4 @@
+import pytest
 """labcheck tune: the sweep moves exactly the values it should, and writes only when asked."""
 
 
@@ -55,3 +56,33 @@ def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
     text = format_tune_report(report, spec)
     assert "0.005 arcmin" in text and "×0.25" not in text.split("0.005 arcmin")[1].split("\n")[0]
     assert "students with full points" in text
+
+
+@pytest.mark.parametrize("lab", ["horizon_dip", "taped_baseline"])
+def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
+    # Issue 12: tune re-judges stored values instead of regrading; at every sweep point its counts,
+    # mean score and passes must equal those of a full regrade with that one tolerance changed.
+    from dataclasses import replace
+
+    from labcheck.demo import SECTIONS
+    from labcheck.grading import grade_submission
+    from labcheck.resources import shipped_spec
+    from labcheck.spec import load_spec
+    from labcheck.tune import MULTIPLIERS, _scaled
+
+    spec = load_spec(shipped_spec(lab))
+    section = next(s for s in SECTIONS if s.lab == lab)
+    subs = [normalise(read_rows(csv_bytes(g.rows), f"{g.number}.csv"), spec) for g in section.generate()
+            if g.number not in section.unreadable]
+    report = tune(spec, subs)
+    pass_pct = 100 * spec.pass_fraction
+    for key, rule in spec.steps.items():
+        for m, row in zip(MULTIPLIERS, report.steps[key]):
+            tried = replace(spec, steps={**spec.steps, key: replace(rule, tolerance=_scaled(rule.tolerance, m))})
+            recs = [grade_submission(sub, tried) for sub in subs]
+            verdicts = [s["verdict"] for r in recs for s in r["steps"] if s["id"] == key]
+            pcts = [100 * r["score"] / r["max_score"] for r in recs if r["max_score"]]
+            assert (row.correct, row.carried, row.wrong) == (verdicts.count("correct"), verdicts.count("carried"),
+                                                              verdicts.count("wrong")), (key, m)
+            assert row.mean_percent == pytest.approx(sum(pcts) / len(pcts), abs=1e-6), (key, m)
+            assert row.n_pass == sum(p >= pass_pct - 1e-9 for p in pcts), (key, m)
