@@ -18,6 +18,7 @@ Two promises, kept here:
 from __future__ import annotations
 
 import errno
+from collections import Counter
 import json
 import os
 import re
@@ -34,7 +35,7 @@ from .grading import grade_submission, missing_record, safe_id, unreadable_recor
 from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
 from .ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
 from .labmatch import wrong_lab_message
-from .outputs import ResultsWriter, gradebook_row, record_json, run_time, write_gradebook
+from .outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
 from .render import Renderer
 from .spec import LabSpec
 from .submission import normalise, observation_keys, result_keys
@@ -256,6 +257,8 @@ class _Outcome:
     evidence: object | None = None
     sheet_html: str | None = None
     sheet_name: str | None = None
+    gradebook: list | None = None  # the student's gradebook row (written at once, not kept)
+    verdicts: tuple = ()  # (step key, verdict, diagnosis label) for the section's step table (tallied, not kept)
 
 
 @dataclass
@@ -462,6 +465,8 @@ class _SectionRun:
         if roster:
             exclude.add(Path(roster).resolve())
         writer = ResultsWriter(staging / "results.json", spec)
+        gradebook = GradebookWriter(staging / "gradebook.csv", spec)
+        tally = StepTally()
         try:
             summaries, skipped, sheet_links, evidence = [], [], {}, []
             count = 0
@@ -482,6 +487,8 @@ class _SectionRun:
                 if outcome.evidence is not None:
                     evidence.append(outcome.evidence)
                 writer.add(outcome.text)
+                gradebook.add(outcome.gradebook)
+                tally.add(outcome.verdicts)
                 summaries.append(outcome.summary)
                 self._count(outcome.summary)
             if run.n_files == 0:
@@ -495,17 +502,18 @@ class _SectionRun:
                         rec = missing_record(r["student_id"], r["name"])
                         rec["sheet"] = None
                         writer.add(record_json(rec))
+                        gradebook.add(gradebook_row(rec, spec))
                         summaries.append(_summary(rec, spec))
                         run.n_missing += 1
-
-            write_gradebook(staging / "gradebook.csv", spec, [s["gradebook"] for s in summaries])
+            gradebook.close()
             leads = find_leads(evidence)
             run.n_leads = len(leads)
             _write_text(staging / "integrity.json", json.dumps(
                 {"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD, "leads": leads},
                 indent=1, ensure_ascii=False))
             _write_text(staging / "integrity.html", self.renderer.integrity(leads, len(evidence)))
-            _write_text(staging / "section.html", self.renderer.section(summaries, skipped, sheet_links, len(leads)))
+            _write_text(staging / "section.html",
+                        self.renderer.section(summaries, skipped, sheet_links, len(leads), tally))
             if run.internal_errors:
                 _write_text(staging / ERROR_LOG, _error_log(run.internal_errors))
             graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
@@ -519,6 +527,7 @@ class _SectionRun:
             writer.close({"skipped": skipped, "run": completion})  # the completion record is written last
         except BaseException:
             writer.abandon()
+            gradebook.close()
             raise
         return run
 
@@ -564,13 +573,14 @@ class _SectionRun:
                                             "message": "labcheck could not render this sheet; the instructor has the details"})
                 sheet = sheet_file_name(record["student_id"], self.used_sheet_names)
                 record["sheet"] = f"feedback/{sheet}" if html is not None else None
-            return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet if html else None)
+            return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet if html else None,
+                            gradebook_row(record, spec), _verdicts(record))
         except Exception:
             self.run.internal_errors.append(f"{item.source}\n{traceback.format_exc()}")
             record = unreadable_record(item.source, "labcheck failed on this file (a fault in labcheck, not in the "
                                                     f"file); the traceback is in {ERROR_LOG}")
             record.update(status="error", sheet=None)
-            return _Outcome(record_json(record), _summary(record, spec))
+            return _Outcome(record_json(record), _summary(record, spec), gradebook=gradebook_row(record, spec))
 
     def _resolve_identity(self, record: dict, item: RawSubmission) -> None:
         if not record["student_id"]:
@@ -641,8 +651,27 @@ def sheet_file_name(student_id: str, used: set[str]) -> str:
     return name
 
 
+class StepTally:
+    """The section's verdicts and diagnoses per step, counted as records come (nothing kept per student)."""
+
+    def __init__(self):
+        self.verdicts: dict = {}
+        self.diagnoses: dict = {}
+
+    def add(self, verdicts) -> None:
+        for key, verdict, diagnosis in verdicts:
+            self.verdicts.setdefault(key, Counter())[verdict] += 1
+            if diagnosis is not None:
+                self.diagnoses.setdefault(key, Counter())[diagnosis] += 1
+
+
+def _verdicts(record: dict) -> tuple:
+    return tuple((s["id"], s["verdict"], s["diagnosis"]["label"] if s["diagnosis"] else None)
+                 for s in record.get("steps", []))
+
+
 def _summary(record: dict, spec: LabSpec) -> dict:
-    """The slim part of a record the gradebook and section summary need."""
+    """The slim part of a record the section summary needs (a few hundred bytes a student)."""
     results = {}  # method -> (recomputed result, its reference, unit) for the section's accuracy plot
     for mid, acc in record.get("accuracy", {}).items():
         results[mid] = (acc["recomputed"], acc["reference"], acc["unit"], acc.get("sigma"))
@@ -657,8 +686,5 @@ def _summary(record: dict, spec: LabSpec) -> dict:
         "error": record.get("error"),
         "n_flags": len(record.get("flags", [])),
         "unmatched": record.get("unmatched", False),
-        "verdicts": [(s["id"], s["verdict"], s["diagnosis"]["label"] if s["diagnosis"] else None)
-                     for s in record.get("steps", [])],
         "results": results,
-        "gradebook": gradebook_row(record, spec),
     }

@@ -24,8 +24,10 @@ Leads:
 
 from __future__ import annotations
 
+import hashlib
 import math
 import re
+from array import array
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 
@@ -48,8 +50,8 @@ class Evidence:
 
     key: str
     name: str
-    readings: tuple[str, ...]  # (item, value, k-th occurrence) tokens, as written
-    digits: tuple[int, ...]
+    readings: tuple  # (item, value, k-th occurrence) as written, each as a 64-bit hash (8 bytes kept)
+    digits: bytes  # the last written digit of each raw reading
     min_p_low: float | None
     z_to_reference: dict = field(default_factory=dict)  # method -> (value − ref)/σ
 
@@ -63,7 +65,7 @@ def collect_evidence(record: dict, raw_rows, shared: set[str]) -> Evidence:
             continue
         token = (row.item, row.value.strip())
         seen[token] += 1
-        tokens.append(f"{token[0]}={token[1]}#{seen[token]}")
+        tokens.append(_token_hash(f"{token[0]}={token[1]}#{seen[token]}"))
         m = _LAST_DIGIT.search(row.value.strip())
         if m and re.search(r"\d", row.value):
             digits.append(int(m.group(1)))
@@ -73,7 +75,13 @@ def collect_evidence(record: dict, raw_rows, shared: set[str]) -> Evidence:
         if acc.get("sigma") and acc.get("recomputed") is not None and acc.get("reference") is not None:
             z[mid] = (acc["recomputed"] - acc["reference"]) / acc["sigma"]
     return Evidence(record.get("student_id") or record.get("submission") or "", record.get("name") or "",
-                    tuple(tokens), tuple(digits), min(p_lows) if p_lows else None, z)
+                    array("q", tokens), bytes(digits), min(p_lows) if p_lows else None, z)
+
+
+def _token_hash(token: str) -> int:
+    """A reading token as a signed 64-bit hash: 8 bytes a reading for the whole section.  Two different
+    readings share one with probability 2^-64 per pair, far below any section's number of pairs' inverse."""
+    return int.from_bytes(hashlib.blake2b(token.encode("utf-8"), digest_size=8).digest(), "little", signed=True)
 
 
 def _normal_cdf(x: float) -> float:
@@ -133,7 +141,7 @@ def find_leads(evidence: list[Evidence]) -> list[dict]:
         })
     for ev in evidence:
         if len(ev.digits) >= 20:
-            t = terminal_digit_test(ev.digits)
+            t = terminal_digit_test(list(ev.digits))
             if t["p"] is not None and t["p"] < P_LEAD:
                 top = sorted(range(10), key=lambda d: -t["counts"][d])[:2]
                 leads.append({

@@ -18,7 +18,7 @@ from typing import IO
 
 from .spec import LabSpec
 
-__all__ = ["neutralise_cell", "ResultsWriter", "write_gradebook", "gradebook_columns"]
+__all__ = ["neutralise_cell", "ResultsWriter", "GradebookWriter", "write_gradebook", "gradebook_columns"]
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "\uff1d", "\uff0b", "\uff0d", "\uff20")
 # A formula character just after a separator a spreadsheet may split on (comma, semicolon, tab, bar,
@@ -132,6 +132,21 @@ def gradebook_row(record: dict, spec: LabSpec) -> list:
     row += [quality["points"] if quality else None]
     row += [len(record.get("flags", [])), neutralise_cell(record.get("error") or "")]
     return row
+
+
+class GradebookWriter:
+    """Write gradebook.csv a row at a time (nothing kept per student): header first, rows as they come."""
+
+    def __init__(self, path: Path, spec: LabSpec):
+        self._fh = open(path, "w", encoding="utf-8", newline="")
+        self._writer = csv.writer(self._fh, quoting=csv.QUOTE_ALL)
+        self._writer.writerow(gradebook_columns(spec))
+
+    def add(self, row: list) -> None:
+        self._writer.writerow(["" if v is None else v for v in row])
+
+    def close(self) -> None:
+        self._fh.close()
 
 
 def write_gradebook(path: Path, spec: LabSpec, rows: list[list]) -> None:

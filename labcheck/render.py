@@ -173,8 +173,9 @@ class Renderer:
             leads=rows, n=n_submissions, caveat=CAVEAT, rate=f"{P_LEAD:g}",
             expected=f"{n_submissions * 3 * P_LEAD:.1f}", version=__version__, generated=self.generated)
 
-    def section(self, summaries: list[dict], skipped: list[dict], sheet_links: dict[int, str], n_leads: int = 0) -> str:
-        """Render section.html from the slim per-submission summaries kept by the batch."""
+    def section(self, summaries: list[dict], skipped: list[dict], sheet_links: dict[int, str], n_leads: int = 0,
+                tally=None) -> str:
+        """Render section.html from the slim per-submission summaries and the per-step ``tally`` kept by the batch."""
         spec = self.spec
         graded = [s for s in summaries if s["status"] == "graded"]
         unreadable = [s for s in summaries if s["status"] not in ("graded", "missing")]  # unreadable, wrong_lab, error
@@ -183,7 +184,7 @@ class Renderer:
         pass_pct = 100.0 * spec.pass_fraction
         n_pass = sum(p >= pass_pct - 1e-9 for p in percents)
 
-        step_rows = self._step_table(graded)
+        step_rows = self._step_table(tally)
         radius_plot = self._accuracy_plot(graded)
         histogram = self._histogram(percents, pass_pct)
 
@@ -229,16 +230,10 @@ class Renderer:
             generated=self.generated,
         )
 
-    def _step_table(self, graded: list[dict]) -> list[dict]:
-        rows = [(key, v, d) for s in graded for key, v, d in s["verdicts"]]
-        if not rows:
+    def _step_table(self, tally) -> list[dict]:
+        if tally is None or not tally.verdicts:
             return []
-        verdicts: dict[str, Counter] = {}
-        diagnoses: dict[str, Counter] = {}
-        for key, verdict, diagnosis in rows:
-            verdicts.setdefault(key, Counter())[verdict] += 1
-            if diagnosis is not None:
-                diagnoses.setdefault(key, Counter())[diagnosis] += 1
+        verdicts, diagnoses = tally.verdicts, tally.diagnoses
         out = []
         for key, rule in self.spec.steps.items():
             if key not in verdicts:
