@@ -332,10 +332,41 @@ class _FileGrader:
 _WORKER: _FileGrader | None = None
 
 
+def _die_with_parent() -> None:
+    """A worker must not outlive a killed labcheck (it would hold the task pipe open and never see EOF).
+
+    On Linux the kernel sends SIGKILL when the parent dies (prctl PR_SET_PDEATHSIG); elsewhere a daemon
+    thread notices the parent is gone within a second.
+    """
+    parent = os.getppid()
+    try:
+        import ctypes
+        import signal
+
+        libc = ctypes.CDLL("libc.so.6", use_errno=True)
+        if libc.prctl(1, signal.SIGKILL, 0, 0, 0) == 0:  # PR_SET_PDEATHSIG = 1
+            if os.getppid() != parent:  # the parent died before the call
+                os._exit(1)
+            return
+    except (OSError, AttributeError):
+        pass
+    import threading
+    import time
+
+    def watch():
+        while True:
+            time.sleep(1.0)
+            if os.getppid() != parent:
+                os._exit(1)
+
+    threading.Thread(target=watch, daemon=True).start()
+
+
 def _worker_init(spec_source: bytes, spec_path: str, roster_ids, generated: str) -> None:
     global _WORKER
     from .spec import parse_spec
 
+    _die_with_parent()
     _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster_ids, generated)
 
 

@@ -273,3 +273,24 @@ def test_a_worker_that_dies_costs_only_its_own_file(tmp_path, monkeypatch):
     dead = next(s for s in subs if s["submission"].endswith("g003.csv"))
     assert dead["status"] == "error" and "worker process died" in dead["error"]
     assert "died" in (tmp_path / "out" / "labcheck-errors.log").read_text()
+
+
+def test_workers_die_with_a_killed_run(runs, tmp_path):
+    # Regression: kill -9 of labcheck left its worker processes running (they held the task pipe open).
+    root, a, b, snap_a, snap_b = runs
+    marker = f"labcheck-orphan-check-{os.getpid()}-{time.time_ns()}"
+    patch = KILL_AT["fifth sheet"] + f"\n# {marker}"
+    assert _grade(b, tmp_path / "graded", patch) == -signal.SIGKILL
+    deadline = time.time() + 5
+    while time.time() < deadline:
+        alive = []
+        for proc in Path("/proc").iterdir():
+            try:
+                if proc.name.isdigit() and marker.encode() in (proc / "cmdline").read_bytes():
+                    alive.append(proc.name)
+            except OSError:
+                continue
+        if not alive:
+            break
+        time.sleep(0.2)
+    assert not alive, f"worker processes outlived the killed run: {alive}"
