@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-from .chain import evaluate_chain
+from .chain import downstream, evaluate_chain, evaluate_downstream
 from .methods import Method
 
 __all__ = ["propagate"]
@@ -58,6 +58,7 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
         if name not in obs or not sigma:
             continue
         value = obs[name]
+        affected = downstream(method, (name,))
         if np.ndim(value):
             arr = np.asarray(value, dtype=float)
             for i in range(arr.size):
@@ -65,18 +66,19 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
                 up, down = arr.copy(), arr.copy()
                 up[i] += h
                 down[i] -= h
-                accumulate(evaluate_chain(method, {**obs, name: up}, consts).expected,
-                           evaluate_chain(method, {**obs, name: down}, consts).expected, h, sigma)
+                accumulate(evaluate_downstream(method, base, {**obs, name: up}, consts, affected),
+                           evaluate_downstream(method, base, {**obs, name: down}, consts, affected), h, sigma)
         else:
             s = sigma / math.sqrt(max(1, counts.get(name, 1)))
             h = s * _STEP
-            accumulate(evaluate_chain(method, {**obs, name: value + h}, consts).expected,
-                       evaluate_chain(method, {**obs, name: value - h}, consts).expected, h, s)
+            accumulate(evaluate_downstream(method, base, {**obs, name: value + h}, consts, affected),
+                       evaluate_downstream(method, base, {**obs, name: value - h}, consts, affected), h, s)
     for name, sigma in const_sigma.items():
         if name not in consts or not sigma:
             continue
         h = sigma * _STEP
-        accumulate(evaluate_chain(method, obs, {**consts, name: consts[name] + h}).expected,
-                   evaluate_chain(method, obs, {**consts, name: consts[name] - h}).expected, h, sigma)
+        affected = downstream(method, (name,))
+        accumulate(evaluate_downstream(method, base, obs, {**consts, name: consts[name] + h}, affected),
+                   evaluate_downstream(method, base, obs, {**consts, name: consts[name] - h}, affected), h, sigma)
     return {sid: ((v if bound else math.sqrt(v)) if base.get(sid) is not None and math.isfinite(v) else None)
             for sid, v in variance.items()}
