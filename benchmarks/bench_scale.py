@@ -3,9 +3,11 @@
     python benchmarks/bench_scale.py [--sizes 1000 10000 100000] [--jobs N]
 
 For each size, builds a section of submissions mixed over the eight shipped labs (a quarter of them
-XLSX), every one with readings of its own (one reading of each demo group is moved by a unit in its
-last digit, so no two submissions share their readings and the integrity screen sees a real section),
-then in the same run times:
+XLSX), every one with readings of its own: the demo groups' readings, each moved by a unit in its last
+digit with probability 1/2, so two submissions share about half their readings (Jaccard ~ 1/3, below
+the integrity screen's 0.8) and the screen sees a real section.  Moved readings make some reported
+steps wrong, so the diagnosis path is timed too (slower than an all-correct section).  Then, in the
+same run, it times:
 
 * the I/O floor: every input file read, and as many bytes as labcheck wrote written to as many
   files, each followed by ``sync``;
@@ -52,10 +54,9 @@ def build(folder: Path, n: int, seed: int = 12) -> dict[str, Path]:
         section = SECTIONS[i % len(SECTIONS)]
         group = groups[section.lab][(i // len(SECTIONS)) % len(groups[section.lab])]
         rows = [list(r) + [""] * (5 - len(r)) for r in group.rows]
-        readings = [k for k, r in enumerate(rows) if r[0] == "observation"]
-        if readings:
-            k = rng.choice(readings)
-            rows[k][2] = _moved(str(rows[k][2]), rng)
+        for r in rows:  # each reading moved with probability 1/2: two copies share about half (Jaccard ~ 1/3)
+            if r[0] == "observation" and rng.random() < 0.5:
+                r[2] = _moved(str(r[2]), rng)
         for r in rows:
             if r[1] == "student_id":
                 r[2] = f"s{i:07d}"
@@ -65,6 +66,20 @@ def build(folder: Path, n: int, seed: int = 12) -> dict[str, Path]:
         data = xlsx_bytes([tuple(r) for r in rows]) if xlsx else csv_bytes([tuple(r) for r in rows])
         (folder_lab / f"sub_{i:07d}.{'xlsx' if xlsx else 'csv'}").write_bytes(data)
     return folders
+
+
+def build_dip(folder: Path, n: int, seed: int = 12) -> dict[str, Path]:
+    """n honest dip groups, each with readings of its own (the demo generator, nothing planted), in one run."""
+    from labcheck.demo.dip import dip_section
+
+    lab_folder = folder / "horizon_dip"
+    lab_folder.mkdir(parents=True)
+    for i, group in enumerate(dip_section(n_groups=n, seed=seed, plant=False)):
+        rows = [(p, it, f"s{i:07d}" if it == "student_id" else v, u, note) for p, it, v, u, note in group.rows]
+        xlsx = i % 4 == 3
+        data = xlsx_bytes(rows) if xlsx else csv_bytes(rows)
+        (lab_folder / f"sub_{i:07d}.{'xlsx' if xlsx else 'csv'}").write_bytes(data)
+    return {"horizon_dip": lab_folder}
 
 
 def _tree_bytes(folder: Path) -> tuple[int, int]:
@@ -108,12 +123,14 @@ def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
     ap.add_argument("--sizes", type=int, nargs="+", default=[1000, 10000])
     ap.add_argument("--jobs", type=int, default=os.cpu_count() or 1)
+    ap.add_argument("--dip-only", action="store_true",
+                    help="one run of fresh honest dip groups per size (the 100,000-in-one-run memory test)")
     args = ap.parse_args()
     rows = []
     for n in args.sizes:
         root = Path(tempfile.mkdtemp(prefix=f"labcheck-bench-{n}-"))
         try:
-            folders = build(root / "in", n)
+            folders = build_dip(root / "in", n) if args.dip_only else build(root / "in", n)
             elapsed, peak = grade_all(folders, root / "out", args.jobs)
             n_out, out_bytes = _tree_bytes(root / "out")
             floor = io_floor(list(folders.values()), n_out, out_bytes, root / "floor")
@@ -122,7 +139,7 @@ def main() -> None:
             shutil.rmtree(root, ignore_errors=True)
     base = rows[0][1] / rows[0][0]
     print(f"{'N':>8} {'grade s':>9} {'floor s':>8} {'x floor':>8} {'ms/sub':>8} {'vs first':>9} {'peak RSS MiB':>13}"
-          f"  (--jobs {args.jobs}; 8 labs, a quarter XLSX)")
+          f"  (--jobs {args.jobs}; {'one dip run' if args.dip_only else '8 labs'}, a quarter XLSX)")
     for n, elapsed, floor, peak, n_out, out_bytes in rows:
         print(f"{n:>8} {elapsed:>9.2f} {floor:>8.2f} {elapsed / floor:>8.1f} {1000 * elapsed / n:>8.3f} "
               f"{(elapsed / n) / base:>9.2f} {peak:>13.0f}")

@@ -523,7 +523,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add(f"integrity.shared[{i}]", f"expected an observation item name, got {item!r}")
 
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
-    from .grading import GENERIC_SLIPS  # the generic slips can be reworded too
+    from .methods.slips import GENERIC_SLIPS  # the generic slips can be reworded too
 
     known_mistakes = {v.id for m in methods for s in m.steps for v in s.variants}
     known_mistakes |= {slip.id for slips in GENERIC_SLIPS.values() for slip in slips} | {"digits_transposed"}
