@@ -474,7 +474,8 @@ class _SectionRun:
         self.roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
         self.grader = _FileGrader(spec, self.roster_ids, self.generated)
         self.run = RunSummary(out)
-        self.seen_ids: dict[str, str] = {}
+        self.seen_ids: dict[str, int] = {}  # student id -> its first file's number (the file named on a repeat)
+        self.first_sources: list[str] = []  # the file of each distinct student id, once
         self.used_sheet_names: set[str] = set()
         self.jobs = jobs if spec.source else 1  # a spec built in memory cannot be sent to a worker
 
@@ -499,7 +500,7 @@ class _SectionRun:
         gradebook = GradebookWriter(staging / "gradebook.csv", spec)
         tally = StepTally()
         try:
-            summaries, skipped, sheet_links, evidence = [], [], {}, []
+            summaries, skipped, evidence = [], [], []
             count = 0
             items = iter_submissions(inputs, limits, exclude=exclude, parse=False)  # parsed where graded
             for item, graded in self._graded_in_order(items):
@@ -514,7 +515,6 @@ class _SectionRun:
                 outcome = self._finish(item, graded)
                 if outcome.sheet_html is not None:
                     _write_text(staging / "feedback" / outcome.sheet_name, outcome.sheet_html)
-                    sheet_links[len(summaries)] = f"feedback/{outcome.sheet_name}"
                 if outcome.evidence is not None:
                     evidence.append(outcome.evidence)
                 writer.add(outcome.text)
@@ -543,8 +543,8 @@ class _SectionRun:
                 {"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD, "leads": leads},
                 indent=1, ensure_ascii=False))
             _write_text(staging / "integrity.html", self.renderer.integrity(leads, len(evidence)))
-            _write_text(staging / "section.html",
-                        self.renderer.section(summaries, skipped, sheet_links, len(leads), tally))
+            with open(staging / "section.html", "w", encoding="utf-8") as fh:  # streamed: no whole page in memory
+                fh.writelines(self.renderer.section_chunks(summaries, skipped, len(leads), tally))
             if run.internal_errors:
                 _write_text(staging / ERROR_LOG, _error_log(run.internal_errors))
             graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
@@ -629,10 +629,12 @@ class _SectionRun:
                 record["flags"].append({"row": None, "item": "student_id", "value": sid,
                                         "message": "this student_id is not on the roster"})
         if sid in self.seen_ids:
+            first = self.first_sources[self.seen_ids[sid]]
             record["flags"].append({"row": None, "item": "student_id", "value": sid,
-                                    "message": f"another submission has the same student_id ({self.seen_ids[sid]})"})
+                                    "message": f"another submission has the same student_id ({first})"})
         else:
-            self.seen_ids[sid] = record["submission"]
+            self.seen_ids[sid] = len(self.first_sources)
+            self.first_sources.append(record["submission"])
 
 
 def _id_from_path(record: dict, item: RawSubmission, roster_ids) -> None:
@@ -701,21 +703,42 @@ def _verdicts(record: dict) -> tuple:
                  for s in record.get("steps", []))
 
 
-def _summary(record: dict, spec: LabSpec) -> dict:
-    """The slim part of a record the section summary needs (a few hundred bytes a student)."""
-    results = {}  # method -> (recomputed result, its reference, unit) for the section's accuracy plot
+class Summary:
+    """The slim part of a record the section summary needs, kept for every student (about 200 bytes
+    plus its strings: a department's 100,000 fit in a few tens of MB).  Read like a dict by the renderer."""
+
+    __slots__ = ("student_id", "name", "group", "submission", "status", "score", "max_score", "error", "n_flags",
+                 "unmatched", "results", "sheet")
+
+    def __init__(self, **fields):
+        for key in self.__slots__:
+            setattr(self, key, fields.get(key))
+
+    def __getitem__(self, key):
+        return getattr(self, key)
+
+    def get(self, key, default=None):
+        value = getattr(self, key, None)
+        return default if value is None else value
+
+
+def _summary(record: dict, spec: LabSpec) -> Summary:
+    """The slim part of a record the section summary needs."""
+    results = {}  # method -> (recomputed result, its reference, unit, sigma) for the section's accuracy plot
     for mid, acc in record.get("accuracy", {}).items():
         results[mid] = (acc["recomputed"], acc["reference"], acc["unit"], acc.get("sigma"))
-    return {
-        "student_id": record.get("student_id") or "",
-        "name": record.get("name") or "",
-        "group": record.get("group") or "",
-        "submission": record.get("submission"),
-        "status": record["status"],
-        "score": record.get("score"),
-        "max_score": record.get("max_score"),
-        "error": record.get("error"),
-        "n_flags": len(record.get("flags", [])),
-        "unmatched": record.get("unmatched", False),
-        "results": results,
-    }
+    status = record["status"]
+    return Summary(
+        student_id=record.get("student_id") or "",
+        name=record.get("name") or "",
+        group=record.get("group") or "",
+        submission=record.get("submission"),
+        status=status,
+        score=record.get("score"),
+        max_score=record.get("max_score"),
+        error=record.get("error") if status != "graded" else None,
+        n_flags=len(record.get("flags", [])),
+        unmatched=bool(record.get("unmatched", False)),
+        results=results or None,
+        sheet=record.get("sheet"),
+    )

@@ -403,7 +403,8 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("inputs", metavar="INPUT", nargs="+", help="submission file, folder or zip")
     p.add_argument("--out", required=True, metavar="DIR", help="output folder (must be empty unless --force)")
     p.add_argument("--roster", metavar="FILE", help="roster CSV with student_id and name, to list missing students")
-    p.add_argument("--force", action="store_true", help="replace labcheck's earlier outputs in DIR")
+    p.add_argument("--force", action="store_true",
+                   help="replace an earlier run in DIR, once the new one is complete (your own files there are kept)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     _jobs_option(p)
     p.set_defaults(func=cmd_grade)

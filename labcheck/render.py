@@ -173,9 +173,13 @@ class Renderer:
             leads=rows, n=n_submissions, caveat=CAVEAT, rate=f"{P_LEAD:g}",
             expected=f"{n_submissions * 3 * P_LEAD:.1f}", version=__version__, generated=self.generated)
 
-    def section(self, summaries: list[dict], skipped: list[dict], sheet_links: dict[int, str], n_leads: int = 0,
-                tally=None) -> str:
-        """Render section.html from the slim per-submission summaries and the per-step ``tally`` kept by the batch."""
+    def section(self, summaries: list, skipped: list[dict], n_leads: int = 0, tally=None) -> str:
+        """section.html as one string (see :meth:`section_chunks`)."""
+        return "".join(self.section_chunks(summaries, skipped, n_leads, tally))
+
+    def section_chunks(self, summaries: list, skipped: list[dict], n_leads: int = 0, tally=None):
+        """Render section.html from the slim per-submission summaries and the per-step ``tally`` kept by the
+        batch, as an iterator of text chunks to write as they come."""
         spec = self.spec
         graded = [s for s in summaries if s["status"] == "graded"]
         unreadable = [s for s in summaries if s["status"] not in ("graded", "missing")]  # unreadable, wrong_lab, error
@@ -188,9 +192,8 @@ class Renderer:
         radius_plot = self._accuracy_plot(graded)
         histogram = self._histogram(percents, pass_pct)
 
-        students = []
-        for i, s in enumerate(summaries):
-            students.append({
+        def student(i: int, s: dict) -> dict:
+            return {
                 "student_id": s["student_id"] or "",
                 "name": s["name"] or "",
                 "group": s["group"] or "",
@@ -198,9 +201,13 @@ class Renderer:
                 "status": s["status"],
                 "score": f"{_points(s['score'])} / {_points(s['max_score'])}" if s["status"] == "graded" else "—",
                 "flags": s["n_flags"],
-                "link": sheet_links.get(i, ""),
+                "link": s.get("sheet") or "",
                 "unmatched": s.get("unmatched", False),
-            })
+            }
+
+        # Made one at a time as the page is written: a department's 100,000 rows are never all in memory.
+        students = (student(i, s) for i, s in enumerate(summaries))
+        unmatched = [student(i, s) for i, s in enumerate(summaries) if s.get("unmatched")]
         stats = {
             "n_files": sum(1 for s in summaries if s["status"] != "missing"),
             "n_graded": len(graded),
@@ -212,7 +219,7 @@ class Renderer:
             "pass": f"{n_pass} of {len(percents)} ({100.0 * n_pass / len(percents):.0f} %)" if percents else "—",
             "pass_rule": f"{pass_pct:.0f} % of the maximum",
         }
-        return self.section_template.render(
+        return self.section_template.generate(
             css=self.css,
             spec={"title": spec.title, "course": spec.course, "id": spec.id, "sha": spec.sha256[:12], "safety": spec.safety},
             stats=stats,
@@ -222,7 +229,7 @@ class Renderer:
             unreadable=[{"submission": s["submission"], "error": s["error"], "status": STATUS_WORDS[s["status"]]}
                         for s in unreadable],
             missing=[{"student_id": s["student_id"], "name": s["name"]} for s in missing],
-            unmatched=[s for s in students if s["unmatched"]],
+            unmatched=unmatched,
             skipped=skipped,
             students=students,
             n_leads=n_leads,
@@ -263,7 +270,7 @@ class Renderer:
         along each group's own line).
         """
         acc = self.spec.accuracy
-        methods = [m for m in self.spec.methods if any(m.id in s["results"] for s in graded)]
+        methods = [m for m in self.spec.methods if any(m.id in (s["results"] or {}) for s in graded)]
         if acc is None or not methods:
             return None
         errors = {}
@@ -272,7 +279,7 @@ class Renderer:
         for m in methods:
             pts = []
             for s in graded:
-                value, ref, unit, sigma = s["results"].get(m.id, (None, None, None, None))
+                value, ref, unit, sigma = (s["results"] or {}).get(m.id, (None, None, None, None))
                 if acc.kind == "sigma":
                     if value is not None and ref is not None and sigma:
                         pts.append(((value - ref) / sigma, s, value, unit))
