@@ -23,6 +23,7 @@ from __future__ import annotations
 
 import argparse
 import io
+import json
 import os
 import random
 import resource
@@ -111,8 +112,15 @@ def grade_all(folders: dict[str, Path], out_root: Path, jobs: int) -> tuple[floa
         cmd = [sys.executable, "-m", "labcheck.cli", "grade", lab, str(folder), "--out", str(out_root / lab),
                "--quiet", "--jobs", str(jobs)]
         proc = subprocess.run(cmd, capture_output=True, text=True)
-        if proc.returncode not in (0, 1):
-            raise SystemExit(f"labcheck failed on {lab}: {proc.stderr[-2000:]}")
+        results = out_root / lab / "results.json"
+        n_files = sum(1 for p in folder.iterdir() if p.is_file())
+        try:
+            run = json.loads(results.read_text(encoding="utf-8"))["run"]
+        except (OSError, ValueError, KeyError):
+            run = {}
+        if not run.get("complete") or run.get("counts", {}).get("files") != n_files:
+            # An exit status alone proves nothing: a crash on import also exits 1.
+            raise SystemExit(f"labcheck did not finish {lab} (exit {proc.returncode}): {proc.stderr[-2000:]}")
     subprocess.run(["sync"], check=False)
     elapsed = time.perf_counter() - t0
     peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
