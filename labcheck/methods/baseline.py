@@ -64,33 +64,24 @@ def _with_correction_scaled(name: str, factor: float):
     return compute
 
 
-def _sign_flip_variant(name: str, label: str):
-    return formula_variant(
-        f"{name}_wrong_sign",
-        f"{label} applied with the wrong sign",
-        f"The {label} was subtracted where it is added (or the other way round). Each correction is added with "
-        "its own sign: positive when the tape reads short (longer or warmer than standard, pulled harder), "
-        "negative for sag and slope.",
-        _with_correction_scaled(name, -1.0),
-    )
+# How one correction can go wrong in the corrected length: (id suffix, label, explanation, factor on it).
+_CORRECTION_SLIPS = {
+    "wrong_sign": ("applied with the wrong sign",
+                   "The {label} was subtracted where it is added (or the other way round). Each correction is added "
+                   "with its own sign: positive when the tape reads short (longer or warmer than standard, pulled "
+                   "harder), negative for sag and slope.", -1.0),
+    "applied_twice": ("applied twice", "The {label} was added twice: each correction enters the corrected length once.",
+                      2.0),
+    "left_out": ("left out", "The {label} was not added: each correction enters the corrected length once, with its "
+                 "own sign.", 0.0),
+}
 
 
-def _left_out_variant(name: str, label: str):
-    return formula_variant(
-        f"{name}_left_out",
-        f"{label} left out",
-        f"The {label} was not added: each correction enters the corrected length once, with its own sign.",
-        _with_correction_scaled(name, 0.0),
-    )
-
-
-def _twice_variant(name: str, label: str):
-    return formula_variant(
-        f"{name}_applied_twice",
-        f"{label} applied twice",
-        f"The {label} was added twice: each correction enters the corrected length once.",
-        _with_correction_scaled(name, 2.0),
-    )
+def _correction_variant(name: str, label: str, slip: str):
+    """The horizontal length with one correction scaled as ``slip`` says, as a named mistake."""
+    words, text, factor = _CORRECTION_SLIPS[slip]
+    return formula_variant(f"{name}_{slip}", f"{label} {words}", text.format(label=label),
+                           _with_correction_scaled(name, factor))
 
 
 def _run_steps(run: str) -> tuple[Step, ...]:
@@ -142,9 +133,9 @@ def _run_steps(run: str) -> tuple[Step, ...]:
                               "The slope correction was left out: the length along the slope was used as the "
                               "horizontal distance.",
                               _with_correction_scaled("slope", 0.0)),)
-             + tuple(_sign_flip_variant(n, f"{n} correction") for n in CORRECTIONS)
-             + tuple(_twice_variant(n, f"{n} correction") for n in CORRECTIONS)
-             + tuple(_left_out_variant(n, f"{n} correction") for n in CORRECTIONS if n != "slope")),
+             + tuple(_correction_variant(n, f"{n} correction", "wrong_sign") for n in CORRECTIONS)
+             + tuple(_correction_variant(n, f"{n} correction", "applied_twice") for n in CORRECTIONS)
+             + tuple(_correction_variant(n, f"{n} correction", "left_out") for n in CORRECTIONS if n != "slope")),
     )
 
 
