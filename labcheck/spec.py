@@ -14,7 +14,7 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .methods import METHODS, Method, Step
+from .methods import METHODS, PLUGIN_ERRORS, Method, Step, load_plugins
 from .units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
 
 __all__ = ["SpecError", "QualityRule", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
@@ -320,13 +320,15 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     if "safety" in raw and isinstance(raw["safety"], str) and not raw["safety"].strip():
         c.add("safety", "must not be empty: every sheet carries the lab's safety note")
 
+    load_plugins()  # methods other installed packages add (entry points), once
     method_ids = c.get(raw, "methods", "", list, what=f"a list of method ids from: {', '.join(METHODS)}") or []
     methods: list[Method] = []
     for i, mid in enumerate(method_ids):
         if not isinstance(mid, str):
             c.add(f"methods[{i}]", f"expected a method id string from: {', '.join(METHODS)}; got {mid!r}")
         elif mid not in METHODS:
-            c.add(f"methods[{i}]", f"unknown method {mid!r}; expected one of {', '.join(METHODS)}")
+            why = f" (an installed plugin names it, but {PLUGIN_ERRORS[mid]})" if mid in PLUGIN_ERRORS else ""
+            c.add(f"methods[{i}]", f"unknown method {mid!r}{why}; expected one of {', '.join(METHODS)}")
         elif METHODS[mid] in methods:
             c.add(f"methods[{i}]", f"method {mid!r} is listed twice")
         else:
