@@ -393,10 +393,10 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     return "wrong", explanation, diagnosis
 
 
-def _hand_converted(method: Method, spec: LabSpec, used: dict, sub: Submission) -> tuple[dict, list[str]]:
-    """Observations (and a group's own constants) written in another unit than the lab's, which students
-    convert by hand: name -> half a unit in the last written digit [SI], and their names for the sheet."""
-    bounds, names = {}, []
+def _hand_converted(method: Method, spec: LabSpec, used: dict, sub: Submission) -> tuple[dict, dict]:
+    """Observations written in another unit than the lab's, which students may convert by hand: name ->
+    half a unit in the last written digit [SI], and name -> the unit it was written in."""
+    bounds, units = {}, {}
     for name, (_, readings) in used.items():
         o = method.observation(name)
         if o.kind in ("choice", "datetime"):
@@ -407,24 +407,25 @@ def _hand_converted(method: Method, spec: LabSpec, used: dict, sub: Submission) 
         halves = [h for h in halves if h]
         if halves:
             bounds[name] = max(halves)
-            names.append(name)
-    return bounds, names
+            units[name] = canonical_unit(converted[0].unit)
+    return bounds, units
 
 
-def _rounding_allowance(run: _MethodRun, rule: StepRule, from_hand: float, hand_names: list[str]) -> tuple[float, str]:
+def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tuple[float, str]:
     """How far a step may honestly differ beyond its tolerance [SI], and the words for the sheet.
 
     (a) Observations written in another unit than the lab's are converted by hand: half a unit in the
     last digit written, carried through the chain by first-order propagation (GUM, JCGM 100:2008,
-    5.1.2), summed as a worst case (``from_hand``).  Earlier results need no allowance: the student's
-    values as written, and as they would be unrounded, are tried exactly (see :func:`_candidates`).
-    (b) The reference reduction's model error (``Step.model_error_si``).
+    5.1.2), summed as a worst case.  ``converted`` holds each such observation's effect on this step,
+    for those the step depends on and that the student wrote in another unit than they reported the
+    step in (a group that taped in feet and reported in feet converted nothing by hand).  Earlier
+    results need no allowance: the student's values as written, and as they would be unrounded, are
+    tried exactly (see :func:`_candidates`).  (b) The reference reduction's model error
+    (``Step.model_error_si``).
     """
     step = rule.step
-    total, reasons = 0.0, []
-    if from_hand:
-        total += from_hand
-        reasons += [f"{n} (converted by hand)" for n in hand_names]
+    total = sum(converted.values())
+    reasons = [f"your {run.method.observation(name).label} (converted by hand)" for name in converted]
     if step.model_error_si:
         total += step.model_error_si
         reasons.append("the reference method's own model error")
@@ -434,7 +435,7 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, from_hand: float, hand_
     if total < 0.05 * base:  # negligible beside the tolerance: not worth a word on the sheet
         return total, ""
     decimals = display_decimals(rule, _display(run.expected.get(step.id), rule.unit, step.kind))
-    words = "the method's model error" if not hand_names else f"{', '.join(reasons)} as written"
+    words = "the method's model error" if not converted else f"the precision of {', '.join(reasons)} as written"
     return total, f", widened by {format_step_value(total, rule, decimals)} for {words}"
 
 
@@ -796,8 +797,10 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         sigmas = propagate(method, obs, consts, spec.observation_sigma,
                            {k: v for k, v in spec.constant_sigma.items() if k in consts}, counts)
     run.sigmas = sigmas
-    hand, hand_names = _hand_converted(method, spec, used, sub)
-    from_hand = propagate(method, obs, consts, hand, {}, bound=True) if hand else {}
+    hand, hand_units = _hand_converted(method, spec, used, sub)
+    # Each observation's effect on every step, apart: a step counts only those it depends on and that
+    # were written in another unit than the student reported the step in (see _rounding_allowance).
+    from_hand = {name: propagate(method, obs, consts, {name: u}, {}, bound=True) for name, u in hand.items()}
     records = []
     for rule in spec.steps_of(method):
         step = rule.step
@@ -809,7 +812,9 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         rep = sub.results.get(rule.key)
         if rep is not None:
             run.reported_si[step.id] = rep.si
-        widen, widen_text = _rounding_allowance(run, rule, from_hand.get(step.id) or 0.0, hand_names)
+        converted = {name: effect.get(step.id) or 0.0 for name, effect in from_hand.items()
+                     if effect.get(step.id) and (rep is None or canonical_unit(rep.unit) != hand_units[name])}
+        widen, widen_text = _rounding_allowance(run, rule, converted)
         verdict, explanation, diagnosis = _verdict(run, rule, rep, exp, own, ref_inputs, own_inputs, sub,
                                                    widen, widen_text)
         if own is not None:

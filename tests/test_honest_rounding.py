@@ -471,3 +471,23 @@ def test_trig_heighting_lab(seed):
     dh = dist * (math.tan(half) if horizontal else math.sin(half))
     st_.report("reciprocal.height_difference", dh, "m", st_.tol("reciprocal.height_difference", 0))
     assert_honest(grade(THEODOLITE, st_.rows))
+
+
+def test_no_widening_when_nothing_was_converted_by_hand():
+    # A group that tapes in feet and reports its lengths in feet converted nothing by hand: its 1 mm
+    # tolerance on the measured length stays 1 mm (it was widened by 12 mm, for every observation in
+    # feet or °F, whether the step used it or not).  Reported in metres, the same readings widen it,
+    # and the sheet names only the observations the step uses, by their labels.
+    from labcheck.demo import SECTIONS
+
+    section = next(s for s in SECTIONS if s.lab == "taped_baseline")
+    group = next(g for g in section.generate() if any(r[3] == "ft" for r in g.rows if r[1] == "forward_tape_reading"))
+    rec = grade(TAPED, group.rows)
+    step = next(s for s in rec["steps"] if s["id"] == "forward_measured")
+    assert step["reported_as"].endswith("ft") and step["tolerance_widened_by"] is None
+    feet = sum(float(r[2]) for r in group.rows if r[1] == "forward_tape_reading")
+    rows = [r for r in group.rows if r[1] != "forward_measured"] + [("result", "forward_measured", f"{feet * FT:.4f}", "m")]
+    step = next(s for s in grade(TAPED, rows)["steps"] if s["id"] == "forward_measured")
+    assert step["verdict"] == "correct" and step["tolerance_widened_by"] > 0
+    assert "forward tape readings (converted by hand)" in step["explanation"]
+    assert "temperature" not in step["explanation"]  # the measured length does not use it
