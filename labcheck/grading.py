@@ -434,9 +434,8 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
     base = rule.tolerance.allowed(run.expected.get(step.id) or 0.0)
     if total < 0.05 * base:  # negligible beside the tolerance: not worth a word on the sheet
         return total, ""
-    decimals = display_decimals(rule, _display(run.expected.get(step.id), rule.unit, step.kind))
     words = "the method's model error" if not converted else f"the precision of {', '.join(reasons)} as written"
-    return total, f", widened by {format_step_value(total, rule, decimals)} for {words}"
+    return total, f", widened by {format_value(total, rule.unit, step.kind, 2)} for {words}"
 
 
 _MAX_COMBINATIONS = 81
