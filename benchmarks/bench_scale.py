@@ -22,7 +22,6 @@ the ratios.
 from __future__ import annotations
 
 import argparse
-import io
 import json
 import os
 import random

@@ -25,7 +25,6 @@ import re
 import shutil
 import sys
 import traceback
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Callable
@@ -469,10 +468,10 @@ class _SectionRun:
     def __init__(self, spec: LabSpec, out: Path, staging: Path, roster_rows, progress, jobs: int = 1):
         self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
         self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
-        self.renderer = Renderer(spec, self.generated)
         self.roster_rows = roster_rows
         self.roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
         self.grader = _FileGrader(spec, self.roster_ids, self.generated)
+        self.renderer = self.grader.renderer  # one set of compiled templates for the sheets and the pages
         self.run = RunSummary(out)
         self.seen_ids: dict[str, int] = {}  # student id -> its first file's number (the file named on a repeat)
         self.first_sources: list[str] = []  # the file of each distinct student id, once

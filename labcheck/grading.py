@@ -45,7 +45,7 @@ __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unre
            "GENERIC_SLIPS", "safe_id", "StepTrace", "judge"]
 
 
-from .methods.slips import _FT, GENERIC_SLIPS, Slip  # noqa: E402,F401 (the catalogue; re-exported)
+from .methods.slips import _FT, GENERIC_SLIPS  # noqa: E402 (the catalogue, which the diagnosis tries)
 
 
 OUTLIER_INSTRUMENT_SIGMAS = 3.0  # an outlier must also lie beyond 3σ of the instrument (common practice)
@@ -794,12 +794,13 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
     if spec.has_uncertainty:
         counts = {name: len(readings) for name, (_, readings) in used.items()}
         sigmas = propagate(method, obs, consts, spec.observation_sigma,
-                           {k: v for k, v in spec.constant_sigma.items() if k in consts}, counts)
+                           {k: v for k, v in spec.constant_sigma.items() if k in consts}, counts, base=chain.expected)
     run.sigmas = sigmas
     hand, hand_units = _hand_converted(method, spec, used, sub)
     # Each observation's effect on every step, apart: a step counts only those it depends on and that
     # were written in another unit than the student reported the step in (see _rounding_allowance).
-    from_hand = {name: propagate(method, obs, consts, {name: u}, {}, bound=True) for name, u in hand.items()}
+    from_hand = {name: propagate(method, obs, consts, {name: u}, {}, bound=True, base=chain.expected)
+                 for name, u in hand.items()}
     records = []
     for rule in spec.steps_of(method):
         step = rule.step

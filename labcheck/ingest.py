@@ -27,6 +27,9 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Iterator
 
+from . import xlsx
+from .xlsx import UNSAVED_FORMULA
+
 __all__ = [
     "Limits",
     "Unparsed",
@@ -371,15 +374,19 @@ def _lines(text: str, limits: Limits) -> Iterator[str]:
         yield line
 
 
+def _header_names(cells) -> list[str] | None:
+    """The row's cells as column names when it is the header row (it names part, item and value), else None."""
+    names = [c.strip().lower() for c in cells]
+    return names if all(col in names for col in REQUIRED_COLUMNS) else None
+
+
 def _header_delimiter(lines: list[str], tab_default: bool) -> str:
     """The separator that splits the header row into cells naming part, item and value."""
     for line in lines:
         if not line.strip():
             continue
         for delim in _DELIMITERS:
-            cells = next(csv.reader([line.rstrip("\r\n")], delimiter=delim), [])
-            names = {c.strip().lower() for c in cells}
-            if all(col in names for col in REQUIRED_COLUMNS):
+            if _header_names(next(csv.reader([line.rstrip("\r\n")], delimiter=delim), [])):
                 return delim
     if tab_default:
         return "\t"
@@ -422,8 +429,6 @@ def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[st
     Only the columns up to the last of ours are read, so a cell typed in the last column of a row costs
     nothing; reading stops past the row cap.
     """
-    from . import xlsx
-
     try:
         zf = zipfile.ZipFile(io.BytesIO(data))
         infos = zf.infolist()
@@ -468,25 +473,19 @@ def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[st
 def _header_width(rows: list[list[str]]) -> int | None:
     """How many columns to read: up to the last of ours in the first header row, or None without one."""
     for row in rows:
-        names = [c.strip().lower() for c in row]
-        if all(col in names for col in REQUIRED_COLUMNS):
+        names = _header_names(row)
+        if names:
             return max(names.index(c) for c in COLUMNS if c in names) + 1
     return None
 
 
-_UNSAVED_FORMULA = ("a formula with no saved value (the file was never calculated and saved by a spreadsheet "
+_UNSAVED_FORMULA_MESSAGE = ("a formula with no saved value (the file was never calculated and saved by a spreadsheet "
                     "program): open it in one, let it calculate, and save it, or type the value")
-_UNSAVED_FORMULA_MARK = "\x00unsaved-formula\x00"  # the same mark as labcheck.xlsx.UNSAVED_FORMULA
 
 
 def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits) -> RawSubmission:
     source = raw.source
-    start = None
-    for i, r in enumerate(table[:_HEADER_SEARCH_ROWS]):
-        names = [c.strip().lower() for c in r]
-        if all(col in names for col in REQUIRED_COLUMNS):
-            start = i
-            break
+    start = next((i for i, r in enumerate(table[:_HEADER_SEARCH_ROWS]) if _header_names(r)), None)
     if start is None:
         first = next((r for r in table if any(c.strip() for c in r)), None)
         if first is None:
@@ -499,7 +498,7 @@ def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits)
             source,
             error=f"wrong columns: expected a header row with {', '.join(COLUMNS)}; found {found}",
         )
-    header = [c.strip().lower() for c in table[start]]
+    header = _header_names(table[start])
     index = {name: header.index(name) for name in COLUMNS if name in header}
     body = table[start + 1:]
     filled = sum(1 for cells in body if any(c.strip() for c in cells))
@@ -515,12 +514,12 @@ def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits)
             continue
         texts = [cells[j] if j is not None and j < len(cells) else "" for j in columns]
         issue = ""
-        if _UNSAVED_FORMULA_MARK in texts:
+        if UNSAVED_FORMULA in texts:
             # A formula with no saved value in part, item, value or unit makes the row unusable; in the
             # note it only loses the note.
-            if _UNSAVED_FORMULA_MARK in texts[:4]:
-                issue = _UNSAVED_FORMULA
-            texts = ["" if t == _UNSAVED_FORMULA_MARK else t for t in texts]
+            if UNSAVED_FORMULA in texts[:4]:
+                issue = _UNSAVED_FORMULA_MESSAGE
+            texts = ["" if t == UNSAVED_FORMULA else t for t in texts]
         part, item, value, unit, note = (t.strip() for t in texts)
         rows.append(Row(start + offset + 2, part.lower(), item, value, unit, note, issue))
     raw.rows = rows

@@ -18,7 +18,7 @@ from typing import IO
 
 from .spec import LabSpec
 
-__all__ = ["neutralise_cell", "ResultsWriter", "GradebookWriter", "write_gradebook", "gradebook_columns"]
+__all__ = ["neutralise_cell", "ResultsWriter", "GradebookWriter", "gradebook_columns"]
 
 _FORMULA_START = ("=", "+", "-", "@", "\t", "\r", "\n", "\uff1d", "\uff0b", "\uff0d", "\uff20")
 # A formula character just after a separator a spreadsheet may split on (comma, semicolon, tab, bar,
@@ -33,7 +33,7 @@ def neutralise_cell(text) -> str:
     line break can be read as a formula; it gets a leading apostrophe, which
     spreadsheets show as plain text.  So does every such character that
     follows a separator inside the cell (``x;=1+1``), in case a program splits
-    the cell there.  Every cell is also written quoted (:func:`write_gradebook`).
+    the cell there.  Every cell is also written quoted (:class:`GradebookWriter`).
     """
     s = "" if text is None else str(text)
     s = _AFTER_SEPARATOR.sub(r"\1'", s)
@@ -147,12 +147,3 @@ class GradebookWriter:
 
     def close(self) -> None:
         self._fh.close()
-
-
-def write_gradebook(path: Path, spec: LabSpec, rows: list[list]) -> None:
-    """Write the gradebook: one row per student on the roster or submission file."""
-    with open(path, "w", encoding="utf-8", newline="") as fh:
-        writer = csv.writer(fh, quoting=csv.QUOTE_ALL)
-        writer.writerow(gradebook_columns(spec))
-        for row in rows:
-            writer.writerow(["" if v is None else v for v in row])

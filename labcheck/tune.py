@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import re
 import statistics
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 from .grading import grade_submission, judge
 from .spec import AccuracyRule, LabSpec, Tolerance

@@ -28,7 +28,7 @@ _STEP = 1e-3  # finite-difference step as a fraction of each input's σ
 
 
 def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_sigma: dict,
-              counts: dict | None = None, *, bound: bool = False) -> dict:
+              counts: dict | None = None, *, bound: bool = False, base: dict | None = None) -> dict:
     """Standard deviation of every step [SI], or None where the step cannot be recomputed.
 
     With ``bound=True`` the inputs' values are bounds (half a unit of rounding, say), not standard
@@ -36,10 +36,12 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
 
     ``obs_sigma``/``const_sigma`` map names to the σ of one reading (SI);
     ``counts`` gives, for single-valued observations, how many rows were
-    averaged into the value.
+    averaged into the value.  ``base`` is the chain already evaluated at ``obs`` and ``consts``
+    (``evaluate_chain(...).expected``), when the caller has it.
     """
     counts = {} if bound else (counts or {})
-    base = evaluate_chain(method, obs, consts).expected
+    if base is None:
+        base = evaluate_chain(method, obs, consts).expected
     variance = {sid: 0.0 for sid in method.step_ids}
 
     def accumulate(plus: dict, minus: dict, h: float, sigma: float) -> None:

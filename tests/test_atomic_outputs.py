@@ -200,8 +200,6 @@ def test_a_read_only_folder_is_one_line(tmp_path, small_disk, monkeypatch, capsy
     if mounted:
         subprocess.run(["mount", "-o", "remount,ro", str(disk)], check=True)
     else:
-        import labcheck.batch as batch
-
         real_mkdir = Path.mkdir
 
         def ro(self, *a, **k):

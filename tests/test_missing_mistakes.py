@@ -7,8 +7,6 @@ group's recomputed inputs by the mistake's meaning (not by the variant's code), 
 
 import math
 
-import pytest
-
 from labcheck.demo import SECTIONS
 from labcheck.grading import evaluate_chain, grade_submission, method_inputs
 from labcheck.ingest import read_rows
