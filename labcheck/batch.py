@@ -32,6 +32,7 @@ from typing import Callable
 from . import __version__
 from .grading import grade_submission, missing_record, safe_id, unreadable_record
 from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
+from .identity import KEEP_POLICIES, Roster, keep_rank, reconcile
 from .ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
 from .labmatch import wrong_lab_message
 from .outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
@@ -43,6 +44,7 @@ __all__ = ["OutputExistsError", "OutputWriteError", "RunSummary", "grade_section
            "EXIT_OK", "EXIT_INCOMPLETE", "EXIT_USAGE", "EXIT_LABCHECK_FAILED", "recover_output", "sheet_file_name"]
 
 ERROR_LOG = "labcheck-errors.log"
+_SPOOL = ".gradebook-rows.jsonl"  # staging only: rows wait here until one file per student is chosen
 OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json", ERROR_LOG)
 
 from .exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE  # noqa: F401 (re-exported)
@@ -67,6 +69,8 @@ class RunSummary:
     n_missing: int = 0
     n_skipped: int = 0
     n_unmatched: int = 0
+    n_superseded: int = 0
+    n_reconciled: int = 0  # files matched to the roster other than by an exact id (listed for review)
     internal_errors: list[str] = field(default_factory=list)
     mean_percent: float | None = None
     n_pass: int = 0
@@ -81,7 +85,7 @@ class RunSummary:
     def counts(self) -> dict:
         return {"files": self.n_files, "graded": self.n_graded, "unreadable": self.n_unreadable,
                 "wrong_lab": self.n_wrong_lab, "error": self.n_errors, "missing": self.n_missing,
-                "skipped": self.n_skipped, "unmatched": self.n_unmatched}
+                "skipped": self.n_skipped, "unmatched": self.n_unmatched, "superseded": self.n_superseded}
 
 
 def count_inputs(inputs: list[str | Path]) -> int:
@@ -204,9 +208,12 @@ def grade_section(
     spec: LabSpec,
     inputs: list[str | Path],
     out_dir: str | Path,
-    roster: str | Path | None = None,
+    roster: "str | Path | Roster | None" = None,
     *,
     force: bool = False,
+    keep: str = "latest",
+    id_column: str | None = None,
+    name_column: str | None = None,
     limits: Limits = Limits(),
     progress: Callable[[int, str], None] | None = None,
     jobs: int = 1,
@@ -226,7 +233,11 @@ def grade_section(
     for item in inputs:
         if not Path(item).exists():
             raise InputError(f"{item}: no such file or folder")
-    roster_rows = read_roster(roster) if roster else None
+    if keep not in KEEP_POLICIES:
+        raise InputError(f"unknown policy for several submissions from one student: {keep!r}; "
+                         f"use one of {', '.join(KEEP_POLICIES)}")
+    roster_path = None if isinstance(roster, Roster) or not roster else Path(roster)
+    roster_rows = roster if isinstance(roster, Roster) else (read_roster(roster, id_column, name_column) if roster else None)
     try:
         recover_output(out)
     except OSError as exc:
@@ -236,7 +247,7 @@ def grade_section(
     try:
         staging.mkdir(parents=True)
         (staging / "feedback").mkdir()
-        run = _SectionRun(spec, out, staging, roster_rows, progress, jobs).grade(inputs, roster, limits)
+        run = _SectionRun(spec, out, staging, roster_rows, progress, jobs, keep).grade(inputs, roster_path, limits)
         _commit(staging, out)
     except OSError as exc:
         shutil.rmtree(staging, ignore_errors=True)
@@ -277,11 +288,11 @@ class _FileGrader:
     Pure per file, so it runs the same in the parent (``--jobs 1``) or in a worker process.  Never raises.
     """
 
-    def __init__(self, spec: LabSpec, roster_ids: dict | None, generated: str):
+    def __init__(self, spec: LabSpec, roster: Roster | None, generated: str):
         self.spec = spec
         self.renderer = Renderer(spec, generated)
         self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
-        self.roster_ids = roster_ids
+        self.roster = roster
 
     def grade(self, item) -> _Graded:
         """Grade one file (a :class:`RawSubmission`, or :class:`Unparsed` bytes parsed here)."""
@@ -300,7 +311,7 @@ class _FileGrader:
                                   name=sub.identity.get("name", ""))
                 else:
                     record = grade_submission(sub, spec)
-            _id_from_path(record, item, self.roster_ids)
+            _identify(record, item.source, self.roster)
             record["sheet"] = None
             graded = _Graded(record)
             if record["status"] == "graded":
@@ -312,7 +323,7 @@ class _FileGrader:
                                                     f"file); the traceback is in {ERROR_LOG}")
             record.update(status="error", sheet=None)
             try:
-                _id_from_path(record, item, self.roster_ids)
+                _identify(record, item.source, self.roster)
             except Exception:
                 pass
             return _Graded(record, traceback=f"{item.source}\n{traceback.format_exc()}")
@@ -361,12 +372,12 @@ def _die_with_parent() -> None:
     threading.Thread(target=watch, daemon=True).start()
 
 
-def _worker_init(spec_source: bytes, spec_path: str, roster_ids, generated: str) -> None:
+def _worker_init(spec_source: bytes, spec_path: str, roster, generated: str) -> None:
     global _WORKER
     from .spec import parse_spec
 
     _die_with_parent()
-    _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster_ids, generated)
+    _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster, generated)
 
 
 def _worker_grade(item: RawSubmission) -> _Graded:
@@ -381,12 +392,12 @@ class _Pool:
     ``error`` record and costs no other file (issue 8's isolation, across processes).
     """
 
-    def __init__(self, jobs: int, spec: LabSpec, roster_ids, generated: str):
+    def __init__(self, jobs: int, spec: LabSpec, roster, generated: str):
         import concurrent.futures as cf
         import multiprocessing
 
         self._cf = cf
-        self._args = (spec.source, spec.path, roster_ids, generated)
+        self._args = (spec.source, spec.path, roster, generated)
         self._context = multiprocessing.get_context("spawn" if sys.platform == "win32" else "fork")
         self.jobs = jobs
         self.window = 8 * jobs
@@ -465,12 +476,15 @@ class _Done:
 
 
 class _SectionRun:
-    def __init__(self, spec: LabSpec, out: Path, staging: Path, roster_rows, progress, jobs: int = 1):
+    def __init__(self, spec: LabSpec, out: Path, staging: Path, roster: Roster | None, progress, jobs: int = 1,
+                 keep: str = "latest"):
         self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
         self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
-        self.roster_rows = roster_rows
-        self.roster_ids = {r["student_id"]: r for r in roster_rows} if roster_rows is not None else None
-        self.grader = _FileGrader(spec, self.roster_ids, self.generated)
+        self.roster = roster
+        self.keep = keep
+        self.kept: dict[str, tuple] = {}  # student id -> (rank, row number, submission) of the file kept so far
+        self.superseded: set[int] = set()  # row numbers of files another file of the same student replaces
+        self.grader = _FileGrader(spec, roster, self.generated)
         self.renderer = self.grader.renderer  # one set of compiled templates for the sheets and the pages
         self.run = RunSummary(out)
         self.seen_ids: dict[str, int] = {}  # student id -> its first file's number (the file named on a repeat)
@@ -484,7 +498,7 @@ class _SectionRun:
             for item in items:
                 yield item, None if isinstance(item, Skipped) else self.grader.grade(item)
             return
-        pool = _Pool(self.jobs, self.spec, self.roster_ids, self.generated)
+        pool = _Pool(self.jobs, self.spec, self.roster, self.generated)
         try:
             yield from pool.map(items)
         finally:
@@ -496,8 +510,8 @@ class _SectionRun:
         if roster:
             exclude.add(Path(roster).resolve())
         writer = ResultsWriter(staging / "results.json", spec)
-        gradebook = GradebookWriter(staging / "gradebook.csv", spec)
-        tally = StepTally()
+        spool = open(staging / _SPOOL, "w+", encoding="utf-8")  # gradebook rows and verdicts, until duplicates are settled
+        gradebook = None
         try:
             summaries, skipped, evidence = [], [], []
             count = 0
@@ -511,32 +525,40 @@ class _SectionRun:
                     run.n_skipped += 1
                     continue
                 run.n_files += 1
-                outcome = self._finish(item, graded)
+                outcome = self._finish(item, graded, len(summaries))
                 if outcome.sheet_html is not None:
                     _write_text(staging / "feedback" / outcome.sheet_name, outcome.sheet_html)
                 if outcome.evidence is not None:
-                    evidence.append(outcome.evidence)
+                    evidence.append((len(summaries), outcome.evidence))
                 writer.add(outcome.text)
-                gradebook.add(outcome.gradebook)
-                tally.add(outcome.verdicts)
+                spool.write(json.dumps([outcome.gradebook, outcome.verdicts], ensure_ascii=False) + "\n")
                 summaries.append(outcome.summary)
                 self._count(outcome.summary)
             if run.n_files == 0:
                 where = ", ".join(str(i) for i in inputs)
                 extra = f" (only {run.n_skipped} clutter file(s))" if run.n_skipped else ""
                 raise InputError(f"found no submission files in {where}{extra}; nothing graded")
-            if self.roster_rows is not None:
+            superseded = self._superseded_list(summaries)
+            gradebook = GradebookWriter(staging / "gradebook.csv", spec)
+            tally = StepTally()
+            spool.seek(0)
+            for number, line in enumerate(spool):  # one row per student: a superseded file's row is left out
+                if number not in self.superseded:
+                    row, verdicts = json.loads(line)
+                    gradebook.add(row)
+                    tally.add(verdicts)
+            if self.roster is not None:
                 present = {s["student_id"] for s in summaries if s["student_id"]}
-                for r in self.roster_rows:
-                    if r["student_id"] not in present:
-                        rec = missing_record(r["student_id"], r["name"])
+                for r in self.roster.entries:
+                    if r.student_id not in present:
+                        rec = missing_record(r.student_id, r.name)
                         rec["sheet"] = None
                         writer.add(record_json(rec))
                         gradebook.add(gradebook_row(rec, spec))
                         summaries.append(_summary(rec, spec))
                         run.n_missing += 1
             gradebook.close()
-            leads = find_leads(evidence)
+            leads = find_leads([e for n, e in evidence if n not in self.superseded])
             run.n_leads = len(leads)
             _write_text(staging / "integrity.json", json.dumps(
                 {"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD, "leads": leads},
@@ -546,7 +568,7 @@ class _SectionRun:
                 fh.writelines(self.renderer.section_chunks(summaries, skipped, len(leads), tally))
             if run.internal_errors:
                 _write_text(staging / ERROR_LOG, _error_log(run.internal_errors))
-            graded = [s for s in summaries if s["status"] == "graded" and s["max_score"]]
+            graded = [s for s in summaries if s["status"] == "graded" and s["max_score"] and not s["superseded"]]
             if graded:
                 percents = [100.0 * s["score"] / s["max_score"] for s in graded]
                 run.mean_percent = sum(percents) / len(percents)
@@ -554,12 +576,32 @@ class _SectionRun:
             completion = {"complete": True, "labcheck_version": __version__,
                           "finished": run_time().isoformat(timespec="seconds"), "counts": run.counts(),
                           "integrity_leads": run.n_leads, "exit_status": run.exit_code}
-            writer.close({"skipped": skipped, "run": completion})  # the completion record is written last
+            tail = {"skipped": skipped}
+            if superseded:
+                tail["superseded"] = superseded
+            tail["run"] = completion
+            writer.close(tail)  # the completion record is written last
         except BaseException:
             writer.abandon()
-            gradebook.close()
+            if gradebook is not None:
+                gradebook.close()
             raise
+        finally:
+            spool.close()
+            (staging / _SPOOL).unlink(missing_ok=True)
         return run
+
+    def _superseded_list(self, summaries: list) -> list[dict]:
+        """Mark the files another file of the same student replaces (by the keep policy); list them."""
+        listed = []
+        kept_file = {sid: summaries[number]["submission"] for sid, (_, number) in self.kept.items()}
+        for number in sorted(self.superseded):
+            s = summaries[number]
+            s.superseded = kept_file[s["student_id"]]
+            listed.append({"submission": s["submission"], "student_id": s["student_id"], "kept": s.superseded,
+                           "policy": self.keep})
+        self.run.n_superseded = len(listed)
+        return listed
 
     def _count(self, summary: dict) -> None:
         status = summary["status"]
@@ -572,12 +614,13 @@ class _SectionRun:
         else:
             self.run.n_unreadable += 1
         self.run.n_unmatched += bool(summary.get("unmatched"))
+        self.run.n_reconciled += bool(summary.get("identity"))
 
     def _process(self, item: RawSubmission) -> _Outcome:
         """Grade one input here and finish it (used by the tests and ``--jobs 1``)."""
         return self._finish(item, self.grader.grade(item))
 
-    def _finish(self, item: RawSubmission, graded: _Graded) -> _Outcome:
+    def _finish(self, item: RawSubmission, graded: _Graded, number: int | None = None) -> _Outcome:
         """The in-order part: identity against the roster and the files before, the sheet's name, the JSON.
 
         Inside one guard too: a fault here is this file's, never the batch's.
@@ -603,6 +646,8 @@ class _SectionRun:
                                             "message": "labcheck could not render this sheet; the instructor has the details"})
                 sheet = sheet_file_name(record["student_id"], self.used_sheet_names)
                 record["sheet"] = f"feedback/{sheet}" if html is not None else None
+            if number is not None:
+                self._keep_one(record, item, number)
             return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet if html else None,
                             gradebook_row(record, spec), _verdicts(record))
         except Exception:
@@ -613,56 +658,53 @@ class _SectionRun:
             return _Outcome(record_json(record), _summary(record, spec), gradebook=gradebook_row(record, spec))
 
     def _resolve_identity(self, record: dict, item: RawSubmission) -> None:
-        if not record["student_id"]:
-            stem = PurePosixPath(item.source).stem
-            record["student_id"] = safe_id(stem)
-            record["flags"].append({"row": None, "item": "student_id", "value": "",
-                                    "message": f"no student_id given; the file name is used ({record['student_id']})"})
+        """A repeat of a student id is flagged here (the roster was matched in :func:`_identify`)."""
         sid = record["student_id"]
-        if self.roster_ids is not None:
-            if sid in self.roster_ids:
-                if not record["name"]:
-                    record["name"] = self.roster_ids[sid]["name"]
-            else:
-                record["unmatched"] = True
-                record["flags"].append({"row": None, "item": "student_id", "value": sid,
-                                        "message": "this student_id is not on the roster"})
         if sid in self.seen_ids:
             first = self.first_sources[self.seen_ids[sid]]
             record["flags"].append({"row": None, "item": "student_id", "value": sid,
-                                    "message": f"another submission has the same student_id ({first})"})
+                                    "message": f"another submission has the same student_id ({first}); "
+                                               f"one is kept by the '{self.keep}' policy"})
         else:
             self.seen_ids[sid] = len(self.first_sources)
             self.first_sources.append(record["submission"])
 
+    def _keep_one(self, record: dict, item, number: int) -> None:
+        """Of one student's files, keep one by the policy; the others are superseded (listed, not counted)."""
+        sid = record.get("student_id")
+        if not sid or record["status"] in ("unreadable", "error") and not record.get("identity"):
+            return  # an unreadable file with no id of its own belongs to nobody yet
+        percent = (record["score"] / record["max_score"]) if record.get("score") is not None and record.get("max_score") else None
+        # A graded file always outranks one that could not be graded: a broken re-upload never hides a grade.
+        rank = (record["status"] == "graded", keep_rank(self.keep, item.source, getattr(item, "modified", None),
+                                                        number, percent))
+        if sid not in self.kept:
+            self.kept[sid] = (rank, number)
+        elif rank > self.kept[sid][0]:
+            self.superseded.add(self.kept[sid][1])
+            self.kept[sid] = (rank, number)
+        else:
+            self.superseded.add(number)
 
-def _id_from_path(record: dict, item: RawSubmission, roster_ids) -> None:
-    if not record["student_id"] and roster_ids:
-        match = _roster_id_in_path(item.source, roster_ids)
-        if match:
-            record["student_id"] = match
-            record["name"] = record["name"] or roster_ids[match]["name"]
-            record["flags"].append({"row": None, "item": "student_id", "value": match,
-                                    "message": "student_id taken from the file's path in the export"})
+
+def _identify(record: dict, source: str, roster: Roster | None) -> None:
+    """Who the record belongs to: the roster's reconciliation, else the file's name (flagged)."""
+    reconcile(record, source, roster)
+    if not record["student_id"] and record["status"] == "graded":
+        stem = PurePosixPath(source).stem
+        record["student_id"] = safe_id(stem)
+        record["flags"].append({"row": None, "item": "student_id", "value": "",
+                                "message": f"no student_id given; the file name is used ({record['student_id']})"})
+        if roster is not None:
+            record["unmatched"] = True
+            record["flags"].append({"row": None, "item": "student_id", "value": record["student_id"],
+                                    "message": "this student_id is not on the roster"})
 
 
 def _error_log(errors: list[str]) -> str:
     head = (f"labcheck {__version__}: faults of labcheck's own, one block per file (for the instructor; "
             "please report them). The files' students are listed with status 'error'.\n")
     return head + "".join(f"\n{'=' * 72}\n{e.rstrip()}\n" for e in errors)
-
-
-_TOKEN_SPLIT = re.compile(r"[\\/\s_.,;()\[\]]+")
-
-
-def _roster_id_in_path(source: str, roster_ids: dict) -> str | None:
-    """A roster student_id that appears as a whole token of the file's path (LMS exports name folders so)."""
-    parts = [p for p in PurePosixPath(source).parts]
-    tokens = set(parts)
-    for part in parts:
-        tokens.update(t for t in _TOKEN_SPLIT.split(part) if t)
-    hits = sorted(t for t in tokens if t in roster_ids)
-    return hits[0] if len(hits) == 1 else None
 
 
 # Names Windows reserves for devices, with any extension (CON.html cannot be opened there).
@@ -707,7 +749,7 @@ class Summary:
     plus its strings: a department's 100,000 fit in a few tens of MB).  Read like a dict by the renderer."""
 
     __slots__ = ("student_id", "name", "group", "submission", "status", "score", "max_score", "error", "n_flags",
-                 "unmatched", "results", "sheet")
+                 "unmatched", "results", "sheet", "superseded", "identity")
 
     def __init__(self, **fields):
         for key in self.__slots__:
@@ -738,6 +780,7 @@ def _summary(record: dict, spec: LabSpec) -> Summary:
         error=record.get("error") if status != "graded" else None,
         n_flags=len(record.get("flags", [])),
         unmatched=bool(record.get("unmatched", False)),
+        identity=(record.get("identity") or {}).get("how"),
         results=results or None,
         sheet=record.get("sheet"),
     )

@@ -85,14 +85,15 @@ def cmd_grade(args) -> int:
     spec = _resolve_spec(args.spec)
     total = count_inputs(args.inputs) if all(Path(i).exists() for i in args.inputs) else 0
     progress = None if args.quiet else _progress(total, sys.stderr)
-    run = grade_section(spec, args.inputs, args.out, args.roster, force=args.force, progress=progress, jobs=args.jobs)
+    run = grade_section(spec, args.inputs, args.out, args.roster, force=args.force, progress=progress, jobs=args.jobs,
+                        keep=args.keep, id_column=args.id_column, name_column=args.name_column)
     if progress and total:
         sys.stderr.write("\n")
-    _print_summary(run, spec, Path(args.out))
+    _print_summary(run, spec, Path(args.out), args.keep)
     return run.exit_code
 
 
-def _print_summary(run, spec: "LabSpec", out: Path) -> None:
+def _print_summary(run, spec: "LabSpec", out: Path, keep: str = "latest") -> None:
     from .batch import ERROR_LOG
 
     c = _Colour(sys.stdout)
@@ -109,6 +110,12 @@ def _print_summary(run, spec: "LabSpec", out: Path) -> None:
         print(c(f"  {run.n_missing} student(s) on the roster with no submission", "33"))
     if run.n_unmatched:
         print(c(f"  {run.n_unmatched} submission(s) whose student_id is not on the roster", "33"))
+    if run.n_superseded:
+        print(c(f"  {run.n_superseded} file(s) not counted: the same student sent another, kept by the "
+                f"'{keep}' policy (listed in section.html)", "33"))
+    if run.n_reconciled:
+        print(c(f"  {run.n_reconciled} file(s) matched to the roster other than by an exact id: review them "
+                "in section.html", "33"))
     if run.n_skipped:
         print(f"  {run.n_skipped} clutter file(s) passed over (listed in results.json)")
     if run.internal_errors:
@@ -385,6 +392,17 @@ def _jobs_option(p) -> None:
                    help=f"grade in N processes (default: this machine's {cores} cores); the outputs are the same for any N")
 
 
+def _roster_options(p, roster: bool = True) -> None:
+    if roster:
+        p.add_argument("--roster", metavar="FILE",
+                       help="roster CSV (an LMS export will do: its id and name columns are found by their headings)")
+    p.add_argument("--id-column", metavar="HEADING", help="the roster column holding student ids (default: found)")
+    p.add_argument("--name-column", metavar="HEADING", help="the roster column holding names (default: found)")
+    p.add_argument("--keep", choices=("latest", "earliest", "best"), default="latest",
+                   help="of several files from one student, the one counted (default: latest, by the export's "
+                        "time stamp, else the file's time)")
+
+
 def build_parser() -> argparse.ArgumentParser:
     fmt = argparse.RawDescriptionHelpFormatter
     parser = argparse.ArgumentParser(
@@ -402,7 +420,7 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("spec", metavar="SPEC", help="lab spec file or shipped lab id")
     p.add_argument("inputs", metavar="INPUT", nargs="+", help="submission file, folder or zip")
     p.add_argument("--out", required=True, metavar="DIR", help="output folder (must be empty unless --force)")
-    p.add_argument("--roster", metavar="FILE", help="roster CSV with student_id and name, to list missing students")
+    _roster_options(p)
     p.add_argument("--force", action="store_true",
                    help="replace an earlier run in DIR, once the new one is complete (your own files there are kept)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")

@@ -24,6 +24,7 @@ import re
 import struct
 import zipfile
 from dataclasses import dataclass, field
+from datetime import datetime
 from pathlib import Path, PurePosixPath
 from typing import Iterator
 
@@ -107,6 +108,7 @@ class RawSubmission:
     error: str | None = None
     notes: list[str] = field(default_factory=list)
     decimal_hint: str | None = None
+    modified: float | None = None  # the file's time (POSIX seconds; a zip member's stored time), for duplicates
 
 
 @dataclass
@@ -117,9 +119,12 @@ class Unparsed:
     source: str
     data: bytes
     limits: "Limits"
+    modified: float | None = None
 
     def parse(self) -> "RawSubmission":
-        return read_rows(self.data, self.source, self.limits)
+        raw = read_rows(self.data, self.source, self.limits)
+        raw.modified = self.modified
+        return raw
 
 
 @dataclass(frozen=True)
@@ -149,8 +154,8 @@ def iter_submissions(
     read are yielded as :class:`Unparsed` (their bytes), for a worker process to parse.
     """
     excluded = [p.resolve() for p in (exclude or set())]
-    finish = (lambda data, shown: read_rows(data, shown, limits)) if parse else (
-        lambda data, shown: Unparsed(shown, data, limits))
+    finish = (lambda data, shown, when: _timed(read_rows(data, shown, limits), when)) if parse else (
+        lambda data, shown, when: Unparsed(shown, data, limits, when))
 
     def is_excluded(p: Path) -> bool:
         r = p.resolve()
@@ -196,7 +201,23 @@ def _from_file(path: Path, display: str, limits: Limits, finish) -> Iterator[Raw
     if len(data) > limits.max_file_bytes:
         yield RawSubmission(display, error=f"file too large (over {limits.max_file_bytes} bytes)")
         return
-    yield finish(data, display)
+    try:
+        when = path.stat().st_mtime
+    except OSError:
+        when = None
+    yield finish(data, display, when)
+
+
+def _timed(raw: RawSubmission, when: float | None) -> RawSubmission:
+    raw.modified = when
+    return raw
+
+
+def _zip_time(info: zipfile.ZipInfo) -> float | None:
+    try:
+        return datetime(*info.date_time).timestamp()
+    except (ValueError, OverflowError, OSError):
+        return None
 
 
 def _safe_member_name(name: str) -> str | None:
@@ -312,7 +333,7 @@ def _from_zip(path: Path, display: str, limits: Limits, finish) -> Iterator[RawS
                 yield RawSubmission(shown, error=f"refused: expands beyond {limits.max_file_bytes} bytes")
                 continue
             total += len(data)
-            yield finish(data, shown)
+            yield finish(data, shown, _zip_time(info))
 
 
 def read_rows(data: bytes, source: str, limits: Limits = Limits()) -> RawSubmission:
@@ -526,29 +547,71 @@ def _rows_from_table(table: list[list[str]], raw: RawSubmission, limits: Limits)
     return raw
 
 
-def read_roster(path: str | Path) -> list[dict[str, str]]:
-    """Read a roster CSV with at least the columns ``student_id`` and ``name``."""
+MAX_ROSTER_BYTES = 20_000_000  # a department's roster of 100,000 students is about 5 MB
+_ROSTER_SEPARATORS = (",", ";", "\t", "|")
+
+
+def read_roster(path: str | Path, id_column: str | None = None, name_column: str | None = None,
+                section: str | None = None) -> "Roster":
+    """Read a roster CSV as an LMS or a spreadsheet writes it (docs/course.md, "Rosters").
+
+    Separators ``, ; tab |`` (found from the header row); UTF-8 (BOM or not), UTF-16 with a BOM, or
+    Windows-1252; the id and name columns by the aliases in :mod:`labcheck.identity` or as named;
+    a name from first and last name columns when there is no name column; up to 5 title rows before
+    the header; rows with no id, or with no name and spaces in the id (an LMS's "Points Possible" row),
+    passed over.  ``section`` names the
+    section of every student (else a section column, else blank).
+    """
+    from .identity import Roster, RosterEntry, RosterError, roster_columns
+
     p = Path(path)
     try:
+        if p.stat().st_size > MAX_ROSTER_BYTES:
+            raise InputError(f"{p}: the roster is over {MAX_ROSTER_BYTES // 1_000_000} MB; is it the right file?")
         data = p.read_bytes()
     except OSError as exc:
         raise InputError(f"{p}: cannot read the roster: {exc.strerror or exc}") from None
     try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError(f"{p}: the roster is not UTF-8 text; save it as 'CSV UTF-8'") from None
-    reader = csv.DictReader(io.StringIO(text, newline=""))
-    fields = [f.strip().lower() for f in (reader.fieldnames or [])]
-    if "student_id" not in fields or "name" not in fields:
-        raise InputError(f"{p}: a roster needs the columns student_id and name; found {', '.join(fields) or 'none'}")
-    roster, seen = [], set()
-    for n, row in enumerate(reader, start=2):
-        clean = {(k or "").strip().lower(): (v or "").strip() for k, v in row.items() if k}
-        sid = clean.get("student_id", "")
+        text = _decode(data, RawSubmission(str(p)))
+    except _Unreadable as exc:
+        raise InputError(f"{p}: the roster cannot be read: {exc}") from None
+    lines = text.splitlines()
+    header_at, delim, cols, first_error = None, ",", None, None
+    for i, line in enumerate(lines[:6]):
+        if not line.strip():
+            continue
+        for d in sorted(_ROSTER_SEPARATORS, key=lambda d: -line.count(d)):
+            cells = next(csv.reader([line], delimiter=d), [])
+            try:
+                cols = roster_columns(cells, id_column, name_column)
+            except RosterError as exc:
+                first_error = first_error or exc
+                continue
+            header_at, delim = i, d
+            break
+        if header_at is not None:
+            break
+    if header_at is None:
+        raise InputError(f"{p}: {first_error or 'the roster is empty'}")
+    entries, seen = [], {}
+    reader = csv.reader(io.StringIO("\n".join(lines[header_at + 1:]), newline=""), delimiter=delim)
+    for n, cells in enumerate(reader, start=header_at + 2):
+        def cell(key):
+            i = cols[key]
+            return cells[i].strip() if i is not None and i < len(cells) else ""
+        sid = cell("id").lstrip("'")
         if not sid:
             continue
+        name = cell("name") or " ".join(x for x in (cell("first"), cell("last")) if x)
+        if not name and " " in sid:
+            continue  # an LMS's annotation row ("Points Possible"), not a student
         if sid in seen:
-            raise InputError(f"{p}: row {n}: student_id {sid!r} appears twice")
-        seen.add(sid)
-        roster.append({"student_id": sid, "name": clean.get("name", "")})
-    return roster
+            raise InputError(f"{p}: row {n}: student id {sid!r} appears twice (rows {seen[sid]} and {n})")
+        seen[sid] = n
+        entries.append(RosterEntry(sid, name, section if section is not None else cell("section")))
+    if not entries:
+        raise InputError(f"{p}: the roster has a header row but no students")
+    try:
+        return Roster(entries)
+    except RosterError as exc:
+        raise InputError(f"{p}: {exc}") from None

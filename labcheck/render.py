@@ -56,6 +56,15 @@ def fmt_number(value, digits: int = 5) -> str:
     return f"{v:,.{decimals}f}".replace(",", "\u2009")
 
 
+# How a file's student was found, when it was not an exact id match (labcheck/identity.py).
+IDENTITY_WORDS = {
+    "normalised": "the id matched once case, spaces or leading zeros were set aside",
+    "folder": "credited from the export's folder (the sheet's id is missing or not on the roster)",
+    "name": "matched by the name on the sheet (close spelling)",
+    "conflict": "the sheet names another student than the export's folder; credited to the folder's student",
+}
+
+
 def _points(p) -> str:
     if p is None:
         return "—"
@@ -181,7 +190,7 @@ class Renderer:
         """Render section.html from the slim per-submission summaries and the per-step ``tally`` kept by the
         batch, as an iterator of text chunks to write as they come."""
         spec = self.spec
-        graded = [s for s in summaries if s["status"] == "graded"]
+        graded = [s for s in summaries if s["status"] == "graded" and not s.get("superseded")]
         unreadable = [s for s in summaries if s["status"] not in ("graded", "missing")]  # unreadable, wrong_lab, error
         missing = [s for s in summaries if s["status"] == "missing"]
         percents = [100.0 * s["score"] / s["max_score"] for s in graded if s["max_score"]]
@@ -208,6 +217,9 @@ class Renderer:
         # Made one at a time as the page is written: a department's 100,000 rows are never all in memory.
         students = (student(i, s) for i, s in enumerate(summaries))
         unmatched = [student(i, s) for i, s in enumerate(summaries) if s.get("unmatched")]
+        reconciled = [dict(student(i, s), how=IDENTITY_WORDS.get(s["identity"], s["identity"]))
+                      for i, s in enumerate(summaries) if s.get("identity")]
+        superseded = [dict(student(i, s), kept=s["superseded"]) for i, s in enumerate(summaries) if s.get("superseded")]
         stats = {
             "n_files": sum(1 for s in summaries if s["status"] != "missing"),
             "n_graded": len(graded),
@@ -230,6 +242,8 @@ class Renderer:
                         for s in unreadable],
             missing=[{"student_id": s["student_id"], "name": s["name"]} for s in missing],
             unmatched=unmatched,
+            reconciled=reconciled,
+            superseded=superseded,
             skipped=skipped,
             students=students,
             n_leads=n_leads,

@@ -124,9 +124,9 @@ def test_folder_input_and_missing_path(tmp_path):
 def test_roster(tmp_path):
     p = tmp_path / "roster.csv"
     p.write_text("Student_ID,Name,email\ns1,Ada,a@x\ns2,Bo,\n", encoding="utf-8")
-    assert read_roster(p) == [{"student_id": "s1", "name": "Ada"}, {"student_id": "s2", "name": "Bo"}]
+    assert [(e.student_id, e.name) for e in read_roster(p).entries] == [("s1", "Ada"), ("s2", "Bo")]
     p.write_text("id,who\n1,Ada\n", encoding="utf-8")
-    with pytest.raises(InputError, match="needs the columns student_id and name"):
+    with pytest.raises(InputError, match="needs a student id column and a name column"):
         read_roster(p)
     p.write_text("student_id,name\ns1,Ada\ns1,Bo\n", encoding="utf-8")
     with pytest.raises(InputError, match="appears twice"):

@@ -17,7 +17,7 @@ LAYERS = [
               "labcheck.xlsx", "labcheck.demo.common"}),
     ("methods", {"labcheck.methods"}),
     ("model", {"labcheck.spec", "labcheck.chain", "labcheck.uncertainty"}),
-    ("reading", {"labcheck.ingest", "labcheck.submission"}),
+    ("reading", {"labcheck.ingest", "labcheck.submission", "labcheck.identity"}),
     ("grading", {"labcheck.grading", "labcheck.integrity", "labcheck.labmatch", "labcheck.tune", "labcheck.compare"}),
     ("reporting", {"labcheck.outputs", "labcheck.render", "labcheck.template"}),
     ("run", {"labcheck.batch", "labcheck.demo"}),
