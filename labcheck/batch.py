@@ -21,7 +21,6 @@ import errno
 from collections import Counter
 import json
 import os
-import re
 import shutil
 import sys
 import traceback
@@ -30,6 +29,7 @@ from pathlib import Path, PurePosixPath
 from typing import Callable
 
 from . import __version__
+from .adjust import apply_adjustments
 from .grading import grade_submission, missing_record, safe_id, unreadable_record
 from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
 from .identity import KEEP_POLICIES, Roster, keep_rank, reconcile
@@ -214,6 +214,7 @@ def grade_section(
     keep: str = "latest",
     id_column: str | None = None,
     name_column: str | None = None,
+    adjustments: dict[str, list[dict]] | None = None,
     limits: Limits = Limits(),
     progress: Callable[[int, str], None] | None = None,
     jobs: int = 1,
@@ -247,7 +248,9 @@ def grade_section(
     try:
         staging.mkdir(parents=True)
         (staging / "feedback").mkdir()
-        run = _SectionRun(spec, out, staging, roster_rows, progress, jobs, keep).grade(inputs, roster_path, limits)
+        section = _SectionRun(spec, out, staging, roster_rows, progress, jobs, keep)
+        section.adjustments = adjustments
+        run = section.grade(inputs, roster_path, limits)
         _commit(staging, out)
     except OSError as exc:
         shutil.rmtree(staging, ignore_errors=True)
@@ -485,6 +488,7 @@ class _SectionRun:
         self.kept: dict[str, tuple] = {}  # student id -> (rank, row number, submission) of the file kept so far
         self.superseded: set[int] = set()  # row numbers of files another file of the same student replaces
         self.grader = _FileGrader(spec, roster, self.generated)
+        self.adjustments: dict[str, list[dict]] | None = None  # a course's: student id -> the instructor's adjustments
         self.renderer = self.grader.renderer  # one set of compiled templates for the sheets and the pages
         self.run = RunSummary(out)
         self.seen_ids: dict[str, int] = {}  # student id -> its first file's number (the file named on a repeat)
@@ -539,7 +543,8 @@ class _SectionRun:
                 extra = f" (only {run.n_skipped} clutter file(s))" if run.n_skipped else ""
                 raise InputError(f"found no submission files in {where}{extra}; nothing graded")
             superseded = self._superseded_list(summaries)
-            gradebook = GradebookWriter(staging / "gradebook.csv", spec)
+            adjusted = self.adjustments is not None
+            gradebook = GradebookWriter(staging / "gradebook.csv", spec, adjusted)
             tally = StepTally()
             spool.seek(0)
             for number, line in enumerate(spool):  # one row per student: a superseded file's row is left out
@@ -554,7 +559,7 @@ class _SectionRun:
                         rec = missing_record(r.student_id, r.name)
                         rec["sheet"] = None
                         writer.add(record_json(rec))
-                        gradebook.add(gradebook_row(rec, spec))
+                        gradebook.add(gradebook_row(rec, spec, adjusted))
                         summaries.append(_summary(rec, spec))
                         run.n_missing += 1
             gradebook.close()
@@ -634,7 +639,10 @@ class _SectionRun:
             if record["status"] == "graded":
                 before = (record["student_id"], record["name"], len(record["flags"]))
                 self._resolve_identity(record, item)
-                if (record["student_id"], record["name"], len(record["flags"])) != before:
+                mine = (self.adjustments or {}).get(record["student_id"])
+                if mine:
+                    record["adjustments"] = apply_adjustments(record, mine)
+                if mine or (record["student_id"], record["name"], len(record["flags"])) != before:
                     # The sheet shows the identity and its flags: render it again with them (rare).
                     self.grader.render(graded)
                     html = graded.html
@@ -649,13 +657,14 @@ class _SectionRun:
             if number is not None:
                 self._keep_one(record, item, number)
             return _Outcome(record_json(record), _summary(record, spec), evidence, html, sheet if html else None,
-                            gradebook_row(record, spec), _verdicts(record))
+                            gradebook_row(record, spec, self.adjustments is not None), _verdicts(record))
         except Exception:
             self.run.internal_errors.append(f"{item.source}\n{traceback.format_exc()}")
             record = unreadable_record(item.source, "labcheck failed on this file (a fault in labcheck, not in the "
                                                     f"file); the traceback is in {ERROR_LOG}")
             record.update(status="error", sheet=None)
-            return _Outcome(record_json(record), _summary(record, spec), gradebook=gradebook_row(record, spec))
+            return _Outcome(record_json(record), _summary(record, spec),
+                            gradebook=gradebook_row(record, spec, self.adjustments is not None))
 
     def _resolve_identity(self, record: dict, item: RawSubmission) -> None:
         """A repeat of a student id is flagged here (the roster was matched in :func:`_identify`)."""

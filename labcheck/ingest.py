@@ -26,7 +26,10 @@ import zipfile
 from dataclasses import dataclass, field
 from datetime import datetime
 from pathlib import Path, PurePosixPath
-from typing import Iterator
+from typing import TYPE_CHECKING, Iterator
+
+if TYPE_CHECKING:
+    from .identity import Roster
 
 from . import xlsx
 from .xlsx import UNSAVED_FORMULA

@@ -109,7 +109,7 @@ def gradebook_columns(spec: LabSpec) -> list[str]:
     return cols
 
 
-def gradebook_row(record: dict, spec: LabSpec) -> list:
+def gradebook_row(record: dict, spec: LabSpec, adjusted: bool = False) -> list:
     """One gradebook row from a record (summary fields only)."""
     points = {s["id"]: s["points"] for s in record.get("steps", [])}
     acc = record.get("accuracy", {})
@@ -131,16 +131,19 @@ def gradebook_row(record: dict, spec: LabSpec) -> list:
     quality = record.get("quality_score")
     row += [quality["points"] if quality else None]
     row += [len(record.get("flags", [])), neutralise_cell(record.get("error") or "")]
+    if adjusted:  # a course's run: the score with the instructor's adjustments, and how many
+        adj = record.get("adjustments")
+        row += [adj["score"] if adj else score, len(adj["items"]) if adj else 0]
     return row
 
 
 class GradebookWriter:
     """Write gradebook.csv a row at a time (nothing kept per student): header first, rows as they come."""
 
-    def __init__(self, path: Path, spec: LabSpec):
+    def __init__(self, path: Path, spec: LabSpec, adjusted: bool = False):
         self._fh = open(path, "w", encoding="utf-8", newline="")
         self._writer = csv.writer(self._fh, quoting=csv.QUOTE_ALL)
-        self._writer.writerow(gradebook_columns(spec))
+        self._writer.writerow(gradebook_columns(spec) + (["adjusted_score", "adjustments"] if adjusted else []))
 
     def add(self, row: list) -> None:
         self._writer.writerow(["" if v is None else v for v in row])

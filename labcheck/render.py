@@ -71,8 +71,11 @@ def _points(p) -> str:
     return f"{p:g}" if float(p).is_integer() else f"{p:.2f}"
 
 
+PAGE_SIZES = ("A4", "letter")
+
+
 class Renderer:
-    def __init__(self, spec: LabSpec, generated: str | None = None):
+    def __init__(self, spec: LabSpec, generated: str | None = None, page_size: str = "A4"):
         """``generated`` is the time the outputs state (the parent's, so that every worker's sheets agree)."""
         self.spec = spec
         self.env = jinja2.Environment(
@@ -82,6 +85,9 @@ class Renderer:
             trim_blocks=True,
             lstrip_blocks=True,
         )
+        if page_size not in PAGE_SIZES:
+            raise ValueError(f"page size {page_size!r}: use one of {', '.join(PAGE_SIZES)}")
+        self.env.globals["page_size"] = page_size  # one of PAGE_SIZES: a CSS keyword, never student data
         self.sheet_template = self.env.get_template("feedback.html")
         self.section_template = self.env.get_template("section.html")
         # Our own stylesheet, not student data: marked safe so quotes survive inside <style>.
@@ -145,12 +151,27 @@ class Renderer:
                 },
                 "quality": [q for q in record["quality"] if q["method"] == m.id],
             })
-        pct = 100.0 * record["score"] / record["max_score"] if record["max_score"] else 0.0
+        adj = record.get("adjustments")
+        score = adj["score"] if adj else record["score"]
+        pct = 100.0 * score / record["max_score"] if record["max_score"] else 0.0
+        adjustments = []
+        for item in (adj or {}).get("items", []):
+            if not item["applied"]:
+                continue
+            if item["step"]:
+                what = f"{item['label']} ({item['step']})"
+                points = (f"{_points(item['points'])} / {_points(item['max_points'])} "
+                          f"(labcheck's: {_points(item['labcheck_points'])})")
+            else:
+                what, points = "the lab's total", f"{item['points']:+g}"
+            adjustments.append({"what": what, "points": points, "reason": item["reason"]})
         return self.sheet_template.render(
             css=self.css,
             spec={"title": spec.title, "course": spec.course, "id": spec.id, "sha": spec.sha256[:12], "safety": spec.safety},
             who={k: record.get(k) or "" for k in ("student_id", "name", "group", "date", "site", "submission")},
-            score=f"{_points(record['score'])} / {_points(record['max_score'])}",
+            score=f"{_points(score)} / {_points(record['max_score'])}",
+            labcheck_score=f"{_points(record['score'])} / {_points(record['max_score'])}" if adj else "",
+            adjustments=adjustments,
             percent=f"{pct:.0f} %",
             methods=methods,
             flags=record["flags"],

@@ -18,10 +18,11 @@ LAYERS = [
     ("methods", {"labcheck.methods"}),
     ("model", {"labcheck.spec", "labcheck.chain", "labcheck.uncertainty"}),
     ("reading", {"labcheck.ingest", "labcheck.submission", "labcheck.identity"}),
-    ("grading", {"labcheck.grading", "labcheck.integrity", "labcheck.labmatch", "labcheck.tune", "labcheck.compare"}),
-    ("reporting", {"labcheck.outputs", "labcheck.render", "labcheck.template"}),
-    ("run", {"labcheck.batch", "labcheck.demo"}),
-    ("cli", {"labcheck.cli"}),
+    ("grading", {"labcheck.grading", "labcheck.integrity", "labcheck.labmatch", "labcheck.tune", "labcheck.compare",
+                 "labcheck.adjust"}),
+    ("reporting", {"labcheck.outputs", "labcheck.render", "labcheck.template", "labcheck.pdf"}),
+    ("run", {"labcheck.batch", "labcheck.demo", "labcheck.course"}),
+    ("cli", {"labcheck.cli", "labcheck.coursecli"}),
 ]
 
 

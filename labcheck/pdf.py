@@ -1,0 +1,30 @@
+"""Printable feedback: a rendered sheet (HTML) to PDF through WeasyPrint, which honours CSS paged media
+(page size, repeated table headers, running footers with "page n of N").
+
+Reporting layer: imports nothing of labcheck's.  WeasyPrint is imported only when a PDF is made, so the
+rest of labcheck starts without it.  Nothing outside the page is fetched: the sheets inline their CSS,
+and every other URL (a student's text cannot make one, but to be sure) is refused.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+__all__ = ["html_to_pdf", "PdfError"]
+
+
+class PdfError(Exception):
+    """A PDF could not be made (WeasyPrint or its system libraries are missing)."""
+
+
+def _refuse(url: str, *args, **kwargs):
+    raise ValueError(f"labcheck's PDFs fetch nothing ({url[:60]})")
+
+
+def html_to_pdf(html: str, path: str | Path) -> None:
+    """Write the page ``html`` as a PDF at ``path``."""
+    try:
+        import weasyprint
+    except (ImportError, OSError) as exc:  # OSError: Pango or HarfBuzz missing from the system
+        raise PdfError(f"PDFs need WeasyPrint and its system libraries (Pango): {exc}") from None
+    weasyprint.HTML(string=html, url_fetcher=_refuse).write_pdf(str(path))
