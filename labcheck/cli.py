@@ -470,6 +470,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     _jobs_option(p)
     p.set_defaults(func=cmd_demo)
+
+    from .coursecli import add_course_parser
+
+    add_course_parser(sub, fmt, _jobs_option, _roster_options)
     return parser
 
 
@@ -499,8 +503,13 @@ def _our_error(exc: Exception) -> int | None:
     from .batch import OutputExistsError, OutputWriteError
     from .compare import ResultsError
     from .ingest import InputError
+    from .course import CourseError
+    from .pdf import PdfError
     from .spec import SpecError
 
+    if isinstance(exc, (CourseError, PdfError)):
+        print(f"labcheck: {exc}", file=sys.stderr)
+        return EXIT_USAGE
     if isinstance(exc, SpecError):
         print(f"labcheck: spec error:\n{exc}", file=sys.stderr)
         return EXIT_USAGE
