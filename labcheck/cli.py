@@ -236,9 +236,9 @@ def cmd_demo(args) -> int:
     out = Path(args.out)
     if out.exists() and any(out.iterdir()):
         if (out / DEMO_MARKER).exists() or args.force:
-            for section in SECTIONS:
-                if (out / section.folder).is_dir():
-                    shutil.rmtree(out / section.folder)
+            for folder in [section.folder for section in SECTIONS] + [COURSE_DEMO_FOLDER]:
+                if (out / folder).is_dir():
+                    shutil.rmtree(out / folder)
         else:
             raise OutputExistsError(f"{out} is not empty and is not an earlier demo; choose another --out or add --force")
     out.mkdir(parents=True, exist_ok=True)
@@ -262,6 +262,7 @@ def cmd_demo(args) -> int:
             worst = max(worst, EXIT_LABCHECK_FAILED if run.n_errors else EXIT_INCOMPLETE)
         if section.lab == "horizon_dip":
             _demo_tune_and_diff(spec, zip_path, roster, folder)
+    surprises += _demo_course(out, args)
     print(f"\nStart with {out / SECTIONS[0].folder / 'graded' / 'section.html'}")
     if surprises:
         print("The demo did not go as planned:\n  " + "\n  ".join(surprises), file=sys.stderr)
@@ -269,6 +270,45 @@ def cmd_demo(args) -> int:
         print("The demo ran as planned: its unreadable files, missing students and the file from another lab's "
               "template are planted on purpose.")
     return worst
+
+
+COURSE_DEMO_FOLDER = "course"
+
+
+def _demo_course(out: Path, args) -> list[str]:
+    """The demo course, from an LMS roster to an LMS grade file and PDFs; returns what did not go as planned."""
+    from .demo.course import run_course_demo
+    from .pdf import PdfError
+
+    print("\nDemo course GEOD 2150 (two labs, one roster, from an LMS export to an LMS import)")
+    try:
+        demo = run_course_demo(out / COURSE_DEMO_FOLDER, jobs=args.jobs)
+    except PdfError as exc:
+        return [f"the course demo could not make PDFs: {exc}"]
+    c = demo.folder
+    print(f"  course record:   {c / 'course.sqlite'} (roster from {demo.roster.name}: LMS headings, ';' separators)")
+    for lab, runs in demo.runs.items():
+        print(f"  {lab}: run(s) {', '.join(map(str, runs))}; {demo.reconciled[lab]} identit(ies) reconciled "
+              "and listed for review")
+    print(f"  several files from one student: {demo.superseded} not counted (the latest attempt is)")
+    for a in demo.adjustments:
+        print(f"  adjustment: {a}")
+    print(f"  regraded horizon_dip with {demo.retuned}: {demo.moved} student(s) moved; "
+          f"{demo.flagged} adjustment(s) flagged for review")
+    print(f"  review list:     labcheck course status {c}")
+    print(f"  regrade history: labcheck course history {c} horizon_dip")
+    print(f"  LMS grade file:  {demo.export}")
+    if demo.pdf_folder:
+        print(f"  PDF sheets:      {demo.pdf_folder} ({len(demo.pdf_pages)} PDFs of at most "
+              f"{max(demo.pdf_pages, default=0)} page(s), and one zip)")
+    problems = list(demo.problems)
+    expected = {"reconciled": {"horizon_dip": 2, "taped_baseline": 1}, "superseded": 1, "flagged": 1}
+    got = {"reconciled": demo.reconciled, "superseded": demo.superseded, "flagged": demo.flagged}
+    if got != expected:
+        problems.append(f"course demo: expected {expected}, got {got}")
+    if demo.pdf_pages and max(demo.pdf_pages) > 2:
+        problems.append(f"course demo: a PDF sheet of {max(demo.pdf_pages)} pages (2 at most planned)")
+    return problems
 
 
 def format_tune_report(report, spec: "LabSpec") -> str:

@@ -17,8 +17,10 @@ Promises kept here:
 
 from __future__ import annotations
 
+import csv
 import json
 import sqlite3
+import zipfile
 import zlib
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -153,6 +155,7 @@ class Course:
     def __init__(self, folder: Path, conn: sqlite3.Connection):
         self.folder = folder
         self.conn = conn
+        self.pages: dict[str, int] = {}  # PDF name -> its pages, for the PDFs written by write_feedback
 
     # ------------------------------------------------------------ opening
     @classmethod
@@ -310,9 +313,10 @@ class Course:
         started = _now()
         lab_dir = self.folder / "labs" / spec.id
         lab_dir.mkdir(parents=True, exist_ok=True)
-        used = [int(p.name[4:]) for p in lab_dir.glob("run-*") if p.name[4:].isdigit()]
+        # A run's folder is numbered by its run id; a folder a killed run left unrecorded keeps its number.
+        used = [int(p.name[4:]) for p in (self.folder / "labs").glob("*/run-*") if p.name[4:].isdigit()]
         recorded = self.conn.execute("SELECT max(run_id) FROM runs").fetchone()[0] or 0
-        number = max(used + [0]) + 1
+        number = max(used + [recorded]) + 1
         out = lab_dir / f"run-{number:03d}"
         run = grade_section(spec, inputs, out, roster, keep=keep, jobs=jobs, progress=progress,
                             limits=limits or Limits(), adjustments=adjustments)
@@ -332,9 +336,9 @@ class Course:
                                  (spec.id, spec.sha256)).fetchone()[0]
             records = results["submissions"]
             cur = db.execute(
-                "INSERT INTO runs (lab_id, spec_id, section, folder, inputs, keep, started_at, finished_at, counts, "
-                "n_results, exit_status, labcheck_version) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
-                (spec.id, spec_id, section or "", str(out.relative_to(self.folder)),
+                "INSERT INTO runs (run_id, lab_id, spec_id, section, folder, inputs, keep, started_at, finished_at, "
+                "counts, n_results, exit_status, labcheck_version) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (number, spec.id, spec_id, section or "", str(out.relative_to(self.folder)),
                  json.dumps([str(i) for i in inputs]), keep, started, results["run"]["finished"],
                  json.dumps(results["run"]["counts"]), len(records), results["run"]["exit_status"],
                  results["run"]["labcheck_version"]))
@@ -517,6 +521,77 @@ class Course:
                     value = round(100.0 * score / res["max_score"], 1) if as_percent else round(score, 3)
                 row[lab_id] = value
         return labs, rows
+
+    def write_export(self, path: str | Path, *, as_percent: bool = False, id_header: str = "student_id",
+                     name_header: str = "name", with_section: bool = False, headers: dict | None = None,
+                     labs: list[str] | None = None, sep: str = ",") -> tuple[int, list[str]]:
+        """The LMS grade file: one row per active roster student, one column per lab (docs/course.md,
+        "Export").  Every text cell is neutralised; written to a ``.part`` file, then renamed.
+        Returns (rows, labs written)."""
+        from .outputs import neutralise_cell
+
+        path = Path(path)
+        all_labs, rows = self.grades(as_percent=as_percent)
+        headers = headers or {}
+        unknown = sorted(set(headers) - set(all_labs)) + sorted(set(labs or []) - set(all_labs))
+        if unknown:
+            raise CourseError(f"lab(s) not in this course: {', '.join(unknown)} (labs: {', '.join(all_labs) or 'none'})")
+        wanted = [lab for lab in all_labs if not labs or lab in labs]
+        head = [id_header] + ([name_header] if name_header else []) + (["section"] if with_section else []) + \
+            [headers.get(lab, lab) for lab in wanted]
+        tmp = path.with_name(path.name + ".part")
+        with open(tmp, "w", encoding="utf-8", newline="") as fh:
+            w = csv.writer(fh, delimiter=sep, quoting=csv.QUOTE_ALL)
+            w.writerow([neutralise_cell(h) for h in head])
+            for row in rows:
+                e = row["student"]
+                cells = [e.student_id] + ([e.name] if name_header else []) + ([e.section] if with_section else [])
+                w.writerow([neutralise_cell(c) for c in cells] +
+                           ["" if row[lab] is None else f"{row[lab]:g}" for lab in wanted])
+        tmp.replace(path)
+        self._log("export", {"file": str(path), "rows": len(rows), "labs": wanted, "percent": as_percent})
+        return len(rows), wanted
+
+    def write_feedback(self, lab_id: str, out: str | Path, page_size: str = "A4", progress=None) -> tuple[list[str], Path]:
+        """Every graded student's current sheet, with today's adjustments, as ``<student id>.pdf`` in ``out``,
+        and one zip of them.  Returns (PDF names, the zip's path)."""
+        from .batch import sheet_file_name
+        from .outputs import run_time
+        from .pdf import html_to_pdf
+        from .render import Renderer
+
+        self._lab(lab_id)
+        out = Path(out)
+        out.mkdir(parents=True, exist_ok=True)
+        renderers: dict = {}
+        used: set[str] = set()
+        made = []
+        generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
+        for sid, row in sorted(self.current_results(lab_id).items()):
+            if row["status"] != "graded":
+                continue
+            if row["run_id"] not in renderers:
+                spec = self.spec_of_run(row["run_id"])
+                if spec is None:
+                    raise CourseError(f"run {row['run_id']}'s spec text is not in the record")
+                renderers[row["run_id"]] = Renderer(spec, generated, page_size=page_size)
+            record = _record(row)
+            adj = self.adjusted(lab_id, row)
+            if adj:
+                record["adjustments"] = adj
+            name = sheet_file_name(sid, used)[: -len(".html")] + ".pdf"
+            pages = html_to_pdf(renderers[row["run_id"]].sheet(record), out / name)
+            made.append(name)
+            self.pages[name] = pages
+            if progress:
+                progress(len(made), name)
+        bundle = out / f"feedback-{lab_id}.zip"
+        part = out / f"feedback-{lab_id}.zip.part"
+        with zipfile.ZipFile(part, "w", zipfile.ZIP_DEFLATED) as zf:
+            for name in made:
+                zf.write(out / name, name)
+        part.replace(bundle)
+        return made, bundle
 
     def history(self) -> list[sqlite3.Row]:
         return self.conn.execute("SELECT * FROM history ORDER BY event_id").fetchall()

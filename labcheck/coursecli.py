@@ -8,7 +8,6 @@ from __future__ import annotations
 
 import csv
 import sys
-import zipfile
 from pathlib import Path
 
 __all__ = ["add_course_parser"]
@@ -187,83 +186,31 @@ def _header(text: str) -> tuple[str, str]:
 
 def cmd_export(args) -> int:
     from .course import CourseError
-    from .outputs import neutralise_cell
 
     out = Path(args.out)
     if out.exists() and not args.force:
         raise CourseError(f"{out} exists; give --force to replace it")
     sep = {"comma": ",", "semicolon": ";", "tab": "\t"}[args.sep]
     with _open(args.dir) as course:
-        labs, rows = course.grades(as_percent=args.scale == "percent")
-        headers = dict(_header(h) for h in args.header or [])
-        unknown = sorted(set(headers) - set(labs))
-        if unknown:
-            raise CourseError(f"--header names lab(s) not in this course: {', '.join(unknown)} "
-                              f"(labs: {', '.join(labs) or 'none'})")
-        wanted = [lab for lab in labs if not args.lab or lab in args.lab]
-        head = [args.id_header] + ([args.name_header] if args.name_header else []) + \
-            (["section"] if args.with_section else []) + [headers.get(lab, lab) for lab in wanted]
-        tmp = out.with_name(out.name + ".part")
-        with open(tmp, "w", encoding="utf-8", newline="") as fh:
-            w = csv.writer(fh, delimiter=sep, quoting=csv.QUOTE_ALL)
-            w.writerow([neutralise_cell(h) for h in head])
-            for row in rows:
-                e = row["student"]
-                cells = [e.student_id] + ([e.name] if args.name_header else []) + \
-                    ([e.section] if args.with_section else [])
-                cells = [neutralise_cell(c) for c in cells]
-                cells += ["" if row[lab] is None else f"{row[lab]:g}" for lab in wanted]
-                w.writerow(cells)
-        tmp.replace(out)
-    print(f"wrote {out}: {len(rows)} student(s) x {len(wanted)} lab(s), "
+        n, labs = course.write_export(out, as_percent=args.scale == "percent", id_header=args.id_header,
+                                      name_header=args.name_header, with_section=args.with_section,
+                                      headers=dict(_header(h) for h in args.header or []), labs=args.lab, sep=sep)
+    print(f"wrote {out}: {n} student(s) x {len(labs)} lab(s), "
           f"{'percent of each lab' if args.scale == 'percent' else 'points'} with adjustments; blank = no graded file")
     return 0
 
 
 def cmd_feedback(args) -> int:
-    from .batch import sheet_file_name
     from .course import CourseError
-    from .outputs import run_time
-    from .pdf import html_to_pdf
-    from .render import Renderer
 
     out = Path(args.out)
     if out.exists() and any(out.iterdir()) and not args.force:
         raise CourseError(f"{out} is not empty; give --force to write into it")
-    out.mkdir(parents=True, exist_ok=True)
+    progress = None if args.quiet else (lambda n, name: sys.stderr.write(f"\r  {n} PDF(s)"))
     with _open(args.dir) as course:
-        course._lab(args.lab)
-        current = course.current_results(args.lab)
-        renderers: dict[int, Renderer] = {}
-        used: set[str] = set()
-        made = []
-        generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
-        for sid, row in sorted(current.items()):
-            if row["status"] != "graded":
-                continue
-            if row["run_id"] not in renderers:
-                spec = course.spec_of_run(row["run_id"])
-                if spec is None:
-                    raise CourseError(f"run {row['run_id']}'s spec text is not in the record")
-                renderers[row["run_id"]] = Renderer(spec, generated, page_size=args.page)
-            from .course import _record
-
-            record = _record(row)
-            adj = course.adjusted(args.lab, row)
-            if adj:
-                record["adjustments"] = adj
-            name = sheet_file_name(sid, used)[: -len(".html")] + ".pdf"
-            html_to_pdf(renderers[row["run_id"]].sheet(record), out / name)
-            made.append(name)
-            if not args.quiet:
-                sys.stderr.write(f"\r  {len(made)} PDF(s)")
-        if made and not args.quiet:
-            sys.stderr.write("\n")
-        bundle = out / f"feedback-{args.lab}.zip"
-        with zipfile.ZipFile(bundle.with_suffix(".zip.part"), "w", zipfile.ZIP_DEFLATED) as zf:
-            for name in made:
-                zf.write(out / name, name)
-        bundle.with_suffix(".zip.part").replace(bundle)
+        made, bundle = course.write_feedback(args.lab, out, args.page, progress)
+    if made and progress:
+        sys.stderr.write("\n")
     print(f"wrote {len(made)} PDF(s) to {out} (named by student id) and {bundle}")
     print("  Grades are advisory until you have reviewed them; integrity leads are never on these sheets.")
     return 0

@@ -197,7 +197,7 @@ def reconcile(record: dict, source: str, roster: Roster | None) -> None:
     if sheet is not None and folder is not None and sheet.student_id != folder.student_id:
         entry, how = folder, "conflict"
         detail = (f"the sheet names {sheet.student_id} ({sheet.name}) but the file is in {folder.student_id}'s "
-                  f"folder of the export; credited to {folder.student_id}, whose folder it is. Review it")
+                  f"folder of the export; credited to {folder.student_id}, whose folder it is (your instructor checks this)")
     elif sheet is not None:
         entry = sheet
         if sheet.student_id != written:

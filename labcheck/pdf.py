@@ -21,10 +21,12 @@ def _refuse(url: str, *args, **kwargs):
     raise ValueError(f"labcheck's PDFs fetch nothing ({url[:60]})")
 
 
-def html_to_pdf(html: str, path: str | Path) -> None:
-    """Write the page ``html`` as a PDF at ``path``."""
+def html_to_pdf(html: str, path: str | Path) -> int:
+    """Write the page ``html`` as a PDF at ``path``; return its number of pages."""
     try:
         import weasyprint
     except (ImportError, OSError) as exc:  # OSError: Pango or HarfBuzz missing from the system
         raise PdfError(f"PDFs need WeasyPrint and its system libraries (Pango): {exc}") from None
-    weasyprint.HTML(string=html, url_fetcher=_refuse).write_pdf(str(path))
+    document = weasyprint.HTML(string=html, url_fetcher=_refuse).render()
+    document.write_pdf(str(path))
+    return len(document.pages)

@@ -113,7 +113,7 @@ def test_folder_against_sheet(written, source, credited, how):
     assert record.get("identity", {}).get("how") == how
     if how == "conflict":
         assert "the sheet names s1006" in record["flags"][-1]["message"]
-        assert "Review it" in record["flags"][-1]["message"]
+        assert "your instructor checks this" in record["flags"][-1]["message"]
 
 
 @pytest.mark.parametrize("name, credited", [
