@@ -215,6 +215,7 @@ def grade_section(
     id_column: str | None = None,
     name_column: str | None = None,
     adjustments: dict[str, list[dict]] | None = None,
+    assigned: dict[str, str] | None = None,
     limits: Limits = Limits(),
     progress: Callable[[int, str], None] | None = None,
     jobs: int = 1,
@@ -248,7 +249,7 @@ def grade_section(
     try:
         staging.mkdir(parents=True)
         (staging / "feedback").mkdir()
-        section = _SectionRun(spec, out, staging, roster_rows, progress, jobs, keep)
+        section = _SectionRun(spec, out, staging, roster_rows, progress, jobs, keep, assigned or {})
         section.adjustments = adjustments
         run = section.grade(inputs, roster_path, limits)
         _commit(staging, out)
@@ -291,8 +292,9 @@ class _FileGrader:
     Pure per file, so it runs the same in the parent (``--jobs 1``) or in a worker process.  Never raises.
     """
 
-    def __init__(self, spec: LabSpec, roster: Roster | None, generated: str):
+    def __init__(self, spec: LabSpec, roster: Roster | None, generated: str, assigned: dict | None = None):
         self.spec = spec
+        self.assigned = assigned or {}
         self.renderer = Renderer(spec, generated)
         self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
         self.roster = roster
@@ -314,7 +316,7 @@ class _FileGrader:
                                   name=sub.identity.get("name", ""))
                 else:
                     record = grade_submission(sub, spec)
-            _identify(record, item.source, self.roster)
+            _identify(record, item.source, self.roster, self.assigned)
             record["sheet"] = None
             graded = _Graded(record)
             if record["status"] == "graded":
@@ -326,7 +328,7 @@ class _FileGrader:
                                                     f"file); the traceback is in {ERROR_LOG}")
             record.update(status="error", sheet=None)
             try:
-                _identify(record, item.source, self.roster)
+                _identify(record, item.source, self.roster, self.assigned)
             except Exception:
                 pass
             return _Graded(record, traceback=f"{item.source}\n{traceback.format_exc()}")
@@ -375,12 +377,12 @@ def _die_with_parent() -> None:
     threading.Thread(target=watch, daemon=True).start()
 
 
-def _worker_init(spec_source: bytes, spec_path: str, roster, generated: str) -> None:
+def _worker_init(spec_source: bytes, spec_path: str, roster, generated: str, assigned=None) -> None:
     global _WORKER
     from .spec import parse_spec
 
     _die_with_parent()
-    _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster, generated)
+    _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster, generated, assigned)
 
 
 def _worker_grade(item: RawSubmission) -> _Graded:
@@ -395,12 +397,12 @@ class _Pool:
     ``error`` record and costs no other file (issue 8's isolation, across processes).
     """
 
-    def __init__(self, jobs: int, spec: LabSpec, roster, generated: str):
+    def __init__(self, jobs: int, spec: LabSpec, roster, generated: str, assigned=None):
         import concurrent.futures as cf
         import multiprocessing
 
         self._cf = cf
-        self._args = (spec.source, spec.path, roster, generated)
+        self._args = (spec.source, spec.path, roster, generated, assigned or {})
         self._context = multiprocessing.get_context("spawn" if sys.platform == "win32" else "fork")
         self.jobs = jobs
         self.window = 8 * jobs
@@ -480,14 +482,15 @@ class _Done:
 
 class _SectionRun:
     def __init__(self, spec: LabSpec, out: Path, staging: Path, roster: Roster | None, progress, jobs: int = 1,
-                 keep: str = "latest"):
+                 keep: str = "latest", assigned: dict[str, str] | None = None):
         self.spec, self.out, self.staging, self.progress = spec, out, staging, progress
         self.generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
         self.roster = roster
         self.keep = keep
         self.kept: dict[str, tuple] = {}  # student id -> (rank, row number, submission) of the file kept so far
         self.superseded: set[int] = set()  # row numbers of files another file of the same student replaces
-        self.grader = _FileGrader(spec, roster, self.generated)
+        self.assigned = assigned or {}  # a course's: file -> the student the instructor credited it to
+        self.grader = _FileGrader(spec, roster, self.generated, self.assigned)
         self.adjustments: dict[str, list[dict]] | None = None  # a course's: student id -> the instructor's adjustments
         self.renderer = self.grader.renderer  # one set of compiled templates for the sheets and the pages
         self.run = RunSummary(out)
@@ -502,7 +505,7 @@ class _SectionRun:
             for item in items:
                 yield item, None if isinstance(item, Skipped) else self.grader.grade(item)
             return
-        pool = _Pool(self.jobs, self.spec, self.roster, self.generated)
+        pool = _Pool(self.jobs, self.spec, self.roster, self.generated, self.assigned)
         try:
             yield from pool.map(items)
         finally:
@@ -685,7 +688,7 @@ class _SectionRun:
             return  # an unreadable file with no id of its own belongs to nobody yet
         percent = (record["score"] / record["max_score"]) if record.get("score") is not None and record.get("max_score") else None
         # A graded file always outranks one that could not be graded: a broken re-upload never hides a grade.
-        rank = (record["status"] == "graded", keep_rank(self.keep, item.source, getattr(item, "modified", None),
+        rank = ((record.get("identity") or {}).get("how") == "instructor", record["status"] == "graded", keep_rank(self.keep, item.source, getattr(item, "modified", None),
                                                         number, percent))
         if sid not in self.kept:
             self.kept[sid] = (rank, number)
@@ -696,8 +699,18 @@ class _SectionRun:
             self.superseded.add(number)
 
 
-def _identify(record: dict, source: str, roster: Roster | None) -> None:
-    """Who the record belongs to: the roster's reconciliation, else the file's name (flagged)."""
+def _identify(record: dict, source: str, roster: Roster | None, assigned: dict | None = None) -> None:
+    """Who the record belongs to: the instructor's assignment, the roster's reconciliation, else the file's
+    name (flagged)."""
+    if assigned and source in assigned and roster is not None and assigned[source] in roster:
+        entry = roster[assigned[source]]
+        written = record.get("student_id") or ""
+        record["student_id"], record["name"] = entry.student_id, record.get("name") or entry.name
+        record["identity"] = {"how": "instructor", "written": written, "credited": entry.student_id,
+                              "detail": f"credited to {entry.student_id} by your instructor"}
+        record["flags"].append({"row": None, "item": "student_id", "value": written,
+                                "message": record["identity"]["detail"]})
+        return
     reconcile(record, source, roster)
     if not record["student_id"] and record["status"] == "graded":
         stem = PurePosixPath(source).stem

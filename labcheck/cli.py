@@ -291,6 +291,9 @@ def _demo_course(out: Path, args) -> list[str]:
         print(f"  {lab}: run(s) {', '.join(map(str, runs))}; {demo.reconciled[lab]} identit(ies) reconciled "
               "and listed for review")
     print(f"  several files from one student: {demo.superseded} not counted (the latest attempt is)")
+    for r in demo.resolved:
+        print(f"  identity reviewed: {r}")
+    print(f"  identities still to review after the regrades: {demo.open_identities}")
     for a in demo.adjustments:
         print(f"  adjustment: {a}")
     print(f"  regraded horizon_dip with {demo.retuned}: {demo.moved} student(s) moved; "
@@ -302,8 +305,10 @@ def _demo_course(out: Path, args) -> list[str]:
         print(f"  PDF sheets:      {demo.pdf_folder} ({len(demo.pdf_pages)} PDFs of at most "
               f"{max(demo.pdf_pages, default=0)} page(s), and one zip)")
     problems = list(demo.problems)
-    expected = {"reconciled": {"horizon_dip": 2, "taped_baseline": 1}, "superseded": 1, "flagged": 1}
-    got = {"reconciled": demo.reconciled, "superseded": demo.superseded, "flagged": demo.flagged}
+    expected = {"reconciled": {"horizon_dip": 2, "taped_baseline": 1}, "superseded": 1, "flagged": 1,
+                "open_identities": 0}
+    got = {"reconciled": demo.reconciled, "superseded": demo.superseded, "flagged": demo.flagged,
+           "open_identities": demo.open_identities}
     if got != expected:
         problems.append(f"course demo: expected {expected}, got {got}")
     if demo.pdf_pages and max(demo.pdf_pages) > 2:

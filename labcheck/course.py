@@ -113,6 +113,26 @@ MIGRATIONS = [
     );
     CREATE TABLE history (event_id INTEGER PRIMARY KEY, at TEXT NOT NULL, action TEXT NOT NULL, detail TEXT NOT NULL);
     """,
+    # 2: the instructor's identity decisions (a file credited to a student; a reconciliation accepted).
+    """
+    CREATE TABLE assignments (
+        assignment_id INTEGER PRIMARY KEY,
+        lab_id TEXT NOT NULL REFERENCES labs(lab_id),
+        submission TEXT NOT NULL,
+        student_id TEXT NOT NULL REFERENCES students(student_id),
+        reason TEXT NOT NULL,
+        made_at TEXT NOT NULL,
+        withdrawn_at TEXT
+    );
+    CREATE TABLE reviews (
+        review_id INTEGER PRIMARY KEY,
+        lab_id TEXT NOT NULL REFERENCES labs(lab_id),
+        student_id TEXT NOT NULL,
+        submission TEXT,
+        kind TEXT NOT NULL,
+        made_at TEXT NOT NULL
+    );
+    """,
 ]
 SCHEMA_VERSION = len(MIGRATIONS)
 
@@ -310,6 +330,7 @@ class Course:
         if not len(roster):
             raise CourseError("the course's roster has no active students; add them with 'labcheck course roster'")
         adjustments = self._adjustments_by_student(spec.id)
+        assigned = self.assignments(spec.id)
         started = _now()
         lab_dir = self.folder / "labs" / spec.id
         lab_dir.mkdir(parents=True, exist_ok=True)
@@ -319,7 +340,7 @@ class Course:
         number = max(used + [recorded]) + 1
         out = lab_dir / f"run-{number:03d}"
         run = grade_section(spec, inputs, out, roster, keep=keep, jobs=jobs, progress=progress,
-                            limits=limits or Limits(), adjustments=adjustments)
+                            limits=limits or Limits(), adjustments=adjustments, assigned=assigned)
         results = json.loads((out / "results.json").read_text(encoding="utf-8"))
         integrity = json.loads((out / "integrity.json").read_text(encoding="utf-8"))
         leads: dict[str, int] = {}
@@ -456,6 +477,60 @@ class Course:
         mine = [a for a in self.adjustments(lab_id) if a["student_id"] == row["student_id"]]
         return apply_adjustments(_record(row), mine) if mine else None
 
+    # ------------------------------------------------------------ identity decisions
+    def _submission(self, lab_id: str, text: str) -> str:
+        """A file of the lab's runs, named in full or by a unique end of its path."""
+        names = {r[0] for r in self.conn.execute(
+            "SELECT DISTINCT submission FROM results JOIN runs USING (run_id) WHERE lab_id = ? AND submission "
+            "IS NOT NULL", (lab_id,))}
+        if text in names:
+            return text
+        hits = sorted(n for n in names if n.endswith("/" + text.lstrip("/")) or n.endswith(text))
+        if len(hits) == 1:
+            return hits[0]
+        if not hits:
+            raise CourseError(f"no file {text!r} among lab {lab_id}'s submissions (see its results.json)")
+        raise CourseError(f"{text!r} names {len(hits)} files of lab {lab_id}; give more of the path: "
+                          + "; ".join(hits[:5]))
+
+    def assign(self, lab_id: str, submission: str, student: str, reason: str) -> str:
+        """Credit a file to a student from the next grading on (beating the sheet, the folder and the keep
+        policy): for a misfiled upload, or to choose which of a student's files counts."""
+        self._lab(lab_id)
+        entry = self.find_student(student)
+        name = self._submission(lab_id, submission)
+        if not reason or not reason.strip():
+            raise CourseError("say why (--reason TEXT): it is kept in the course's history")
+        now = _now()
+        with self.transaction() as db:
+            db.execute("UPDATE assignments SET withdrawn_at = ? WHERE lab_id = ? AND submission = ? AND "
+                       "withdrawn_at IS NULL", (now, lab_id, name))
+            db.execute("INSERT INTO assignments (lab_id, submission, student_id, reason, made_at) VALUES (?, ?, ?, ?, ?)",
+                       (lab_id, name, entry.student_id, reason.strip(), now))
+            self._log("assign", {"lab": lab_id, "submission": name, "student": entry.student_id, "reason": reason.strip()})
+        return name
+
+    def assignments(self, lab_id: str) -> dict[str, str]:
+        return {r["submission"]: r["student_id"] for r in self.conn.execute(
+            "SELECT * FROM assignments WHERE lab_id = ? AND withdrawn_at IS NULL ORDER BY assignment_id", (lab_id,))}
+
+    def accept(self, lab_id: str, student: str) -> int:
+        """Mark the student's current identity reconciliation in a lab as reviewed (it leaves the review list
+        until a new run reconciles another file)."""
+        self._lab(lab_id)
+        row = self.current_results(lab_id).get(self.find_student(student).student_id)
+        if row is None or not (row["identity"] or row["unmatched"]):
+            raise CourseError(f"{student} has no identity to review in lab {lab_id}")
+        with self.transaction() as db:
+            db.execute("INSERT INTO reviews (lab_id, student_id, submission, kind, made_at) VALUES (?, ?, ?, 'identity', ?)",
+                       (lab_id, row["student_id"], row["submission"], _now()))
+            self._log("accept identity", {"lab": lab_id, "student": row["student_id"], "submission": row["submission"]})
+        return 1
+
+    def _reviewed(self, lab_id: str) -> set[tuple[str, str]]:
+        return {(r["student_id"], r["submission"]) for r in self.conn.execute(
+            "SELECT * FROM reviews WHERE lab_id = ? AND kind = 'identity'", (lab_id,))}
+
     # ------------------------------------------------------------ reading back
     def spec_of_run(self, run_id: int):
         from .spec import parse_spec
@@ -470,6 +545,7 @@ class Course:
         for lab in self.labs():
             st = LabStatus(lab["lab_id"], lab["title"], runs=[dict(r) for r in self.current_runs(lab["lab_id"])])
             current = self.current_results(lab["lab_id"])
+            reviewed = self._reviewed(lab["lab_id"])
             for run in st.runs:
                 for row in self.conn.execute("SELECT * FROM results WHERE run_id = ? AND counted = 0 ORDER BY n",
                                              (run["run_id"],)):
@@ -483,7 +559,8 @@ class Course:
                     st.missing.append(who)
                 else:
                     st.unreadable.append(dict(who, status=row["status"], reason=_record(row).get("error")))
-                if row["identity"] or row["unmatched"]:
+                if (row["identity"] or row["unmatched"]) and row["identity"] != "instructor" and \
+                        (sid, row["submission"]) not in reviewed:
                     detail = (_record(row).get("identity") or {}).get("detail") or "the student_id is not on the roster"
                     st.identity.append(dict(who, detail=detail))
                 if row["leads"]:

@@ -17,6 +17,7 @@ EXAMPLES = """examples:
   labcheck course grade geod2150 horizon_dip section_B.zip
   labcheck course adjust geod2150 c2150-004 horizon_dip --step dip_mean --points 1 --reason "misread row 12"
   labcheck course status geod2150
+  labcheck course accept geod2150 horizon_dip k2150-003
   labcheck course export geod2150 --out grades_for_lms.csv --id-header "Student ID"
   labcheck course feedback geod2150 horizon_dip --out pdfs/
   labcheck course history geod2150 horizon_dip"""
@@ -137,6 +138,20 @@ def cmd_adjust(args) -> int:
         print(f"adjustment recorded: {args.student}, {args.lab}: {what} ({args.reason})")
         print("  it shows on the student's sheet at the next 'course grade' and in 'course feedback' PDFs; "
               "'course export' includes it now")
+    return 0
+
+
+def cmd_assign(args) -> int:
+    with _open(args.dir) as course:
+        name = course.assign(args.lab, args.file, args.student, args.reason or "")
+    print(f"{name} will count for {args.student} in {args.lab} from the next 'labcheck course grade'")
+    return 0
+
+
+def cmd_accept(args) -> int:
+    with _open(args.dir) as course:
+        course.accept(args.lab, args.student)
+    print(f"{args.student}'s identity in {args.lab} marked as reviewed")
     return 0
 
 
@@ -301,6 +316,24 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("--withdraw", action="store_true", help="withdraw the adjustment on this step (or the lab's)")
     q.add_argument("--file", metavar="CSV")
     q.set_defaults(func=cmd_adjust)
+
+    q = cs.add_parser("assign", help="credit a file to a student (a misfiled upload, or the file that counts)",
+                      formatter_class=fmt,
+                      description="From the next 'course grade' on, FILE (its path as listed in results.json, or "
+                                  "a unique end of it) counts for STUDENT, whatever its sheet or folder says, and "
+                                  "before any other file of that student.")
+    q.add_argument("dir", metavar="DIR")
+    q.add_argument("lab", metavar="LAB")
+    q.add_argument("file", metavar="FILE")
+    q.add_argument("student", metavar="STUDENT")
+    q.add_argument("--reason", required=True, metavar="TEXT")
+    q.set_defaults(func=cmd_assign)
+
+    q = cs.add_parser("accept", help="mark a student's identity reconciliation as reviewed", formatter_class=fmt)
+    q.add_argument("dir", metavar="DIR")
+    q.add_argument("lab", metavar="LAB")
+    q.add_argument("student", metavar="STUDENT")
+    q.set_defaults(func=cmd_accept)
 
     q = cs.add_parser("status", help="what to review: missing, unreadable, identities, leads, flagged adjustments",
                       formatter_class=fmt)

@@ -62,6 +62,7 @@ IDENTITY_WORDS = {
     "folder": "credited from the export's folder (the sheet's id is missing or not on the roster)",
     "name": "matched by the name on the sheet (close spelling)",
     "conflict": "the sheet names another student than the export's folder; credited to the folder's student",
+    "instructor": "credited by the instructor (labcheck course assign)",
 }
 
 

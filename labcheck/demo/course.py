@@ -47,6 +47,8 @@ class CourseDemo:
     pdf_folder: Path | None = None
     pdf_pages: list[int] = field(default_factory=list)
     moved: int = 0
+    resolved: list[str] = field(default_factory=list)  # identity decisions the instructor made
+    open_identities: int = -1  # identities still to review at the end
     problems: list[str] = field(default_factory=list)  # what did not go as planned
 
 
@@ -146,6 +148,14 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
             demo.reconciled[lab] = run.n_reconciled
             demo.superseded += run.n_superseded
 
+        # The identities, reviewed: two accepted as labcheck reconciled them; the e-mailed file credited by hand.
+        for sid in (STUDENTS[2][0], STUDENTS[4][0]):
+            course.accept("horizon_dip", sid)
+        emailed = course.assign("taped_baseline", "emailed_to_TA/taped_K07.csv", STUDENTS[6][0],
+                                "e-mailed to the TA; the student confirmed it in class")
+        demo.resolved = [f"horizon_dip: {STUDENTS[2][0]} and {STUDENTS[4][0]} accepted",
+                         f"taped_baseline: {emailed.rsplit('/', 1)[-1]} assigned to {STUDENTS[6][0]}"]
+
         # Two adjustments: a step of the dip lab (the student whose mean has two digits swapped), the taped lab's total.
         current = course.current_results("horizon_dip")
         target = next((sid for sid, row in sorted(current.items())
@@ -174,6 +184,9 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
                       load_results(course.run_folder(run_id)))
         demo.moved = len(d.changed)
 
+        _, run_id = course.grade(load_spec(shipped_spec("taped_baseline")), [demo.inputs["taped_baseline"]], jobs=jobs)
+        demo.runs["taped_baseline"].append(run_id)
+        demo.open_identities = sum(len(st.identity) for st in course.status())
         demo.export = folder / "grades_for_lms.csv"
         course.write_export(demo.export, as_percent=True, id_header="Student ID", name_header="Name",
                             headers={"horizon_dip": "Lab 2: Dip of the horizon (%)",
