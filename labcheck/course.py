@@ -629,9 +629,11 @@ class Course:
         self._log("export", {"file": str(path), "rows": len(rows), "labs": wanted, "percent": as_percent})
         return len(rows), wanted
 
-    def write_feedback(self, lab_id: str, out: str | Path, page_size: str = "A4", progress=None) -> tuple[list[str], Path]:
-        """Every graded student's current sheet, with today's adjustments, as ``<student id>.pdf`` in ``out``,
-        and one zip of them.  Returns (PDF names, the zip's path)."""
+    def write_feedback(self, lab_id: str, out: str | Path, page_size: str = "A4", progress=None, jobs: int = 1,
+                       students: list[str] | None = None) -> tuple[list[str], Path]:
+        """Every graded student's current sheet (or those of ``students``), with today's adjustments, as
+        ``<student id>.pdf`` in ``out``, and one zip of them.  Sheets are rendered here; the PDFs are laid out
+        in ``jobs`` processes (WeasyPrint's layout is the slow part).  Returns (PDF names, the zip's path)."""
         from .batch import sheet_file_name
         from .outputs import run_time
         from .pdf import html_to_pdf
@@ -644,8 +646,16 @@ class Course:
         used: set[str] = set()
         made = []
         generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
+        wanted = None if students is None else {self.find_student(s).student_id for s in students}
+        pages: list = []
+        pool = None
+        if jobs > 1:
+            import multiprocessing
+            from concurrent.futures import ProcessPoolExecutor
+
+            pool = ProcessPoolExecutor(jobs, mp_context=multiprocessing.get_context("fork"))
         for sid, row in sorted(self.current_results(lab_id).items()):
-            if row["status"] != "graded":
+            if row["status"] != "graded" or (wanted is not None and sid not in wanted):
                 continue
             if row["run_id"] not in renderers:
                 spec = self.spec_of_run(row["run_id"])
@@ -657,11 +667,17 @@ class Course:
             if adj:
                 record["adjustments"] = adj
             name = sheet_file_name(sid, used)[: -len(".html")] + ".pdf"
-            pages = html_to_pdf(renderers[row["run_id"]].sheet(record), out / name)
+            html = renderers[row["run_id"]].sheet(record)
             made.append(name)
-            self.pages[name] = pages
+            pages.append(pool.submit(html_to_pdf, html, out / name) if pool else html_to_pdf(html, out / name))
             if progress:
                 progress(len(made), name)
+        try:
+            for name, n in zip(made, pages):
+                self.pages[name] = n.result() if pool else n
+        finally:
+            if pool:
+                pool.shutdown(cancel_futures=True)
         bundle = out / f"feedback-{lab_id}.zip"
         part = out / f"feedback-{lab_id}.zip.part"
         with zipfile.ZipFile(part, "w", zipfile.ZIP_DEFLATED) as zf:

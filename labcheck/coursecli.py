@@ -223,7 +223,7 @@ def cmd_feedback(args) -> int:
         raise CourseError(f"{out} is not empty; give --force to write into it")
     progress = None if args.quiet else (lambda n, name: sys.stderr.write(f"\r  {n} PDF(s)"))
     with _open(args.dir) as course:
-        made, bundle = course.write_feedback(args.lab, out, args.page, progress)
+        made, bundle = course.write_feedback(args.lab, out, args.page, progress, jobs=args.jobs, students=args.student)
     if made and progress:
         sys.stderr.write("\n")
     print(f"wrote {len(made)} PDF(s) to {out} (named by student id) and {bundle}")
@@ -359,9 +359,11 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("dir", metavar="DIR")
     q.add_argument("lab", metavar="LAB")
     q.add_argument("--out", required=True, metavar="DIR")
-    q.add_argument("--page", choices=("A4", "letter"), default="A4")
-    q.add_argument("--force", action="store_true")
-    q.add_argument("--quiet", action="store_true")
+    q.add_argument("--page", choices=("A4", "letter"), default="A4", help="paper size (default A4)")
+    q.add_argument("--student", action="append", metavar="ID", help="only this student's sheet (repeatable)")
+    q.add_argument("--force", action="store_true", help="write into a folder that is not empty")
+    q.add_argument("--quiet", action="store_true", help="no count of PDFs as they are made")
+    jobs_option(q)
     q.set_defaults(func=cmd_feedback)
 
     q = cs.add_parser("history", help="compare two runs of a lab: who moved, which adjustments were re-applied",

@@ -193,7 +193,7 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
                                      "taped_baseline": "Lab 3: Taped baseline (%)"})
         if pdfs:
             demo.pdf_folder = folder / "feedback_pdfs_horizon_dip"
-            names, _ = course.write_feedback("horizon_dip", demo.pdf_folder)
+            names, _ = course.write_feedback("horizon_dip", demo.pdf_folder, jobs=jobs)
             demo.pdf_pages = [course.pages[n] for n in names]
     return demo
 
