@@ -30,3 +30,22 @@ def test_methods_doc_names_every_step_and_mistake():
             assert f"`{step.id}`" in text or f"{step.id}`" in text
             for v in step.variants:
                 assert f"`{v.id}`" in text, v.id
+
+
+def test_course_doc_matches_the_code(tmp_path):
+    """docs/course.md states the alias lists, the fuzzy threshold and margin, and every table and column."""
+    from labcheck import identity
+    from labcheck.course import Course
+
+    text = (ROOT / "docs" / "course.md").read_text(encoding="utf-8")
+    assert ", ".join(identity.ID_HEADINGS) in text
+    assert ", ".join(identity.NAME_HEADINGS) in text
+    assert f"**{identity.NAME_MATCH_THRESHOLD:g}** of 100" in text and f"within **{identity.NAME_MATCH_MARGIN:g}**" in text
+    assert "`" + "`, `".join(identity.KEEP_POLICIES) + "`" in text or all(f"`{k}`" in text for k in identity.KEEP_POLICIES)
+    course = Course.create(tmp_path / "c")
+    tables = [r[0] for r in course.conn.execute("SELECT name FROM sqlite_master WHERE type = 'table'")]
+    for table in tables:
+        row = next((ln for ln in text.splitlines() if ln.startswith(f"| `{table}`")), None)
+        assert row is not None, f"docs/course.md does not describe table {table}"
+        for column in (r[1] for r in course.conn.execute(f"PRAGMA table_info({table})")):
+            assert f"`{column}`" in row, f"docs/course.md: column {table}.{column} is not described"
