@@ -629,7 +629,7 @@ class Course:
         self._log("export", {"file": str(path), "rows": len(rows), "labs": wanted, "percent": as_percent})
         return len(rows), wanted
 
-    def write_feedback(self, lab_id: str, out: str | Path, page_size: str = "A4", progress=None, jobs: int = 1,
+    def write_feedback(self, lab_id: str, out: str | Path, page_size: str | None = None, progress=None, jobs: int = 1,
                        students: list[str] | None = None) -> tuple[list[str], Path]:
         """Every graded student's current sheet (or those of ``students``), with today's adjustments, as
         ``<student id>.pdf`` in ``out``, and one zip of them.  Sheets are rendered here; the PDFs are laid out

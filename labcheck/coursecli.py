@@ -359,7 +359,7 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("dir", metavar="DIR")
     q.add_argument("lab", metavar="LAB")
     q.add_argument("--out", required=True, metavar="DIR")
-    q.add_argument("--page", choices=("A4", "letter"), default="A4", help="paper size (default A4)")
+    q.add_argument("--page", choices=("A4", "letter"), help="paper size (default: the spec's page_size, else A4)")
     q.add_argument("--student", action="append", metavar="ID", help="only this student's sheet (repeatable)")
     q.add_argument("--force", action="store_true", help="write into a folder that is not empty")
     q.add_argument("--quiet", action="store_true", help="no count of PDFs as they are made")

@@ -76,7 +76,7 @@ PAGE_SIZES = ("A4", "letter")
 
 
 class Renderer:
-    def __init__(self, spec: LabSpec, generated: str | None = None, page_size: str = "A4"):
+    def __init__(self, spec: LabSpec, generated: str | None = None, page_size: str | None = None):
         """``generated`` is the time the outputs state (the parent's, so that every worker's sheets agree)."""
         self.spec = spec
         self.env = jinja2.Environment(
@@ -86,6 +86,7 @@ class Renderer:
             trim_blocks=True,
             lstrip_blocks=True,
         )
+        page_size = page_size or spec.page_size
         if page_size not in PAGE_SIZES:
             raise ValueError(f"page size {page_size!r}: use one of {', '.join(PAGE_SIZES)}")
         self.env.globals["page_size"] = page_size  # one of PAGE_SIZES: a CSS keyword, never student data

@@ -37,6 +37,7 @@ SCHEMA_DOC = {
     "quality": "field-data quality: points, alpha, outlier_alpha, precision_standard (optional)",
     "integrity": "shared: observation items all groups legitimately share, left out of copy leads (optional)",
     "course": "course name shown on sheets (optional)",
+    "page_size": 'paper for printed sheets and PDFs: "A4" or "letter" (default "A4")',
 }
 
 
@@ -154,6 +155,7 @@ class LabSpec:
     reported_sigma: tuple = ()  # step keys whose uncertainty students report (as "<key>_sigma")
     reported_sigma_points: float = 1.0
     sigma_within_factor: float = 2.0
+    page_size: str = "A4"  # paper for printed sheets and PDFs ("A4" or "letter")
     source: bytes = b""  # the TOML it was read from: how a worker process rebuilds the same spec
 
     @property
@@ -316,6 +318,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         lab_id = ""
     title = c.get(raw, "title", "", str, what="a title string") or ""
     course = c.get(raw, "course", "", str, required=False, default="") or ""
+    page_size = c.get(raw, "page_size", "", str, required=False, default="A4") or "A4"
+    if page_size not in ("A4", "letter"):
+        c.add("page_size", f'expected "A4" or "letter", got {page_size!r}')
+        page_size = "A4"
     safety = c.get(raw, "safety", "", str, what="the lab's safety note as a string") or ""
     if "safety" in raw and isinstance(raw["safety"], str) and not raw["safety"].strip():
         c.add("safety", "must not be empty: every sheet carries the lab's safety note")
@@ -544,6 +550,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         id=lab_id,
         title=title,
         course=course,
+        page_size=page_size,
         methods=methods,
         methods_required=required,
         safety=safety.strip(),

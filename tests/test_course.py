@@ -344,3 +344,20 @@ def test_course_commands_from_the_command_line(tmp_path, inputs, capsys):
     assert "holds no course record" in capsys.readouterr().err
     assert main(["course", "adjust", c, STUDENTS[0][0], "no_lab", "--points", "1", "--reason", "x"]) == 2
     assert "no lab 'no_lab'" in capsys.readouterr().err
+
+
+def test_page_size_from_the_spec(tmp_path, inputs, dip_spec):
+    text = Path(dip_spec.path).read_text(encoding="utf-8").replace('course = ', 'page_size = "letter"\ncourse = ', 1)
+    spec_file = tmp_path / "letter.toml"
+    spec_file.write_text(text, encoding="utf-8")
+    course = _new_course(tmp_path, inputs)
+    course.grade(load_spec(spec_file), [inputs.inputs["horizon_dip"]])
+    (name,) = course.write_feedback("horizon_dip", tmp_path / "pdfs", students=[STUDENTS[0][0]])[0]
+    box = pypdf.PdfReader(tmp_path / "pdfs" / name).pages[0].mediabox
+    assert (round(float(box.width)), round(float(box.height))) == (612, 792)
+    bad = tmp_path / "bad.toml"
+    bad.write_text(text.replace('page_size = "letter"', 'page_size = "A5"'), encoding="utf-8")
+    from labcheck.spec import SpecError
+
+    with pytest.raises(SpecError, match='page_size.*expected "A4" or "letter"'):
+        load_spec(bad)
