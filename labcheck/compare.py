@@ -72,10 +72,16 @@ def _parts(rec: dict) -> dict:
     return parts
 
 
+def _counted(results: dict) -> list[dict]:
+    """The records that count: a file another file of the same student superseded is left out."""
+    superseded = {s["submission"] for s in results.get("superseded", [])}
+    return [r for r in results.get("submissions", []) if r.get("submission") not in superseded]
+
+
 def diff_runs(old: dict, new: dict) -> RunDiff:
     """Every student whose status, score or any step's verdict or points differ between the runs."""
-    old_by = {_key(r): r for r in old.get("submissions", [])}
-    new_by = {_key(r): r for r in new.get("submissions", [])}
+    old_by = {_key(r): r for r in _counted(old)}
+    new_by = {_key(r): r for r in _counted(new)}
     changed, unchanged = [], 0
     for key in [k for k in old_by if k in new_by]:
         a, b = old_by[key], new_by[key]

@@ -223,3 +223,27 @@ def test_identity_problems_are_listed_in_the_batch(tmp_path, dip_spec):
            for r in results["submissions"] if r["submission"]}
     assert how == {"dip.csv": ("s1005", "conflict"), "by_name.csv": ("s1007", "name"), "caps.csv": ("s1006", "normalised")}
     assert results["run"]["counts"]["missing"] == 0
+
+
+def test_diff_compares_the_files_that_count(tmp_path, dip_spec):
+    """Two runs of a section where one student sent two files: diff compares the counted one only."""
+    from labcheck.compare import diff_runs, load_results
+
+    roster = tmp_path / "roster.csv"
+    roster.write_text("student_id,name\ns1005,Amara Hollinsworth\n", encoding="utf-8")
+    good = csv_bytes(good_dip_rows(sid="s1005", name="Amara Hollinsworth"))
+    worse = csv_bytes([r if r[1] != "dip_mean" else ("result", "dip_mean", "7.5", "arcmin")
+                       for r in good_dip_rows(sid="s1005", name="Amara Hollinsworth")])
+    # the worse file is the earlier one, listed last in the archive: a dict keyed by id alone would keep it
+    _zip(tmp_path / "export.zip", [("b/first.csv", worse, (2026, 10, 3, 9, 0, 0)),
+                                   ("a/second.csv", good, (2026, 10, 4, 9, 0, 0))])
+    grade_section(dip_spec, [tmp_path / "export.zip"], tmp_path / "latest", roster, keep="latest")
+    grade_section(dip_spec, [tmp_path / "export.zip"], tmp_path / "earliest", roster, keep="earliest")
+    one, two = load_results(tmp_path / "latest"), load_results(tmp_path / "earliest")
+    good_score = next(r["score"] for r in one["submissions"] if r["submission"].endswith("second.csv"))
+    worse_score = next(r["score"] for r in one["submissions"] if r["submission"].endswith("first.csv"))
+    assert good_score > worse_score
+    d = diff_runs(one, two)  # the counted file changed from the good one to the worse one
+    (change,) = d.changed
+    assert (change.key, change.old_score, change.new_score) == ("s1005", good_score, worse_score)
+    assert diff_runs(one, one).changed == []
