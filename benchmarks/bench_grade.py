@@ -20,10 +20,10 @@ import time
 import tracemalloc
 from pathlib import Path
 
-from labcheck.batch import grade_section
+from labcheck.run.batch import grade_section
 from labcheck.demo.dip import dip_section
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
 
 
 def write_section(folder: Path, n: int) -> None:

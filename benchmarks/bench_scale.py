@@ -142,7 +142,7 @@ def grade_all(folders: dict[str, Path], out_root: Path, jobs: int) -> tuple[floa
     t0 = time.perf_counter()
     peak_parent = peak_worker = 0
     for lab, folder in folders.items():
-        cmd = [sys.executable, "-m", "labcheck.cli", "grade", lab, str(folder), "--out", str(out_root / lab),
+        cmd = [sys.executable, "-m", "labcheck.cli.main", "grade", lab, str(folder), "--out", str(out_root / lab),
                "--quiet", "--jobs", str(jobs)]
         proc, parent, worker = _run_watched(cmd)
         peak_parent, peak_worker = max(peak_parent, parent), max(peak_worker, worker)

@@ -24,10 +24,10 @@ CHILD = r"""
 import json, resource, sys, time
 import tracemalloc
 t0 = time.perf_counter()
-from labcheck.ingest import RawSubmission, iter_submissions
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
-from labcheck.submission import normalise
+from labcheck.reading.ingest import RawSubmission, iter_submissions
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
+from labcheck.reading.submission import normalise
 spec = load_spec(shipped_spec("horizon_dip"))
 t1 = time.perf_counter()
 def read_all():

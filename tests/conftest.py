@@ -3,12 +3,12 @@ import math
 import pytest
 
 from labcheck.demo import csv_bytes as demo_csv_bytes
-from labcheck.ingest import read_rows
+from labcheck.reading.ingest import read_rows
 from labcheck.reductions import horizon as hz
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
-from labcheck.submission import normalise
-from labcheck.grading import grade_submission
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
+from labcheck.reading.submission import normalise
+from labcheck.grading.grade import grade_submission
 
 ARCMIN = math.radians(1 / 60)
 

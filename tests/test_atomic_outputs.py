@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from labcheck.cli import main
+from labcheck.cli.main import main
 
 from conftest import csv_bytes, good_dip_rows
 
@@ -27,7 +27,7 @@ FOREIGN = "instructor-notes.txt"  # the instructor's own file in the output fold
 KILL_AT = {
     # point: code run in the child before grading, patching labcheck to SIGKILL itself there
     "fifth sheet": """
-import labcheck.batch as b
+import labcheck.run.batch as b
 real = b._write_text
 calls = []
 def write(path, text):
@@ -36,19 +36,19 @@ def write(path, text):
     real(path, text)
 b._write_text = write""",
     "gradebook written": """
-import labcheck.outputs as o
+import labcheck.report.outputs as o
 real = o.GradebookWriter.close
 def close(self):
     real(self); kill()
 o.GradebookWriter.close = close""",
     "results closed": """
-import labcheck.outputs as o
+import labcheck.report.outputs as o
 real = o.ResultsWriter.close
 def close(self, tail=None):
     real(self, tail); kill()
 o.ResultsWriter.close = close""",
     "between the two renames": """
-import labcheck.batch as b
+import labcheck.run.batch as b
 real = b.os.replace
 calls = []
 class _Os:
@@ -59,7 +59,7 @@ class _Os:
         real(src, dst)
 b.os = _Os()""",
     "before carrying the instructor's files": """
-import labcheck.batch as b
+import labcheck.run.batch as b
 def carry(src, dst): kill()
 b._carry_foreign_files = carry""",
 }
@@ -68,7 +68,7 @@ CHILD = """
 import os, signal, sys
 def kill(): os.kill(os.getpid(), signal.SIGKILL)
 {patch}
-from labcheck.cli import main
+from labcheck.cli.main import main
 sys.exit(main(sys.argv[1:]))
 """
 
@@ -181,7 +181,7 @@ def test_a_full_disk_is_one_line_and_keeps_the_previous_run(tmp_path, small_disk
     assert main(["grade", "horizon_dip", str(_inputs(tmp_path / "A", 2, 0)), "--out", str(out), "--quiet"]) == 0
     before = _snapshot(out)
     if not mounted:  # no tmpfs here: the OS error is injected where the outputs are written
-        import labcheck.batch as batch
+        import labcheck.run.batch as batch
 
         def full(path, text):
             raise OSError(errno.ENOSPC, "No space left on device")
@@ -252,7 +252,7 @@ def test_jobs_give_byte_identical_demo_sections(tmp_path, monkeypatch):
 def test_a_worker_that_dies_costs_only_its_own_file(tmp_path, monkeypatch):
     # A file that kills its worker process (a crash outside Python, the OOM killer): with fork, the
     # patch below reaches the workers; the file becomes an error record and the rest are graded.
-    import labcheck.batch as batch
+    import labcheck.run.batch as batch
 
     real = batch._FileGrader.grade
 

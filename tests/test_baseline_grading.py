@@ -5,8 +5,8 @@ import math
 import pytest
 
 from labcheck.reductions import baseline as bl
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
 
 from conftest import grade_rows, step
 

@@ -13,12 +13,12 @@ import math
 import pytest
 
 from labcheck.demo import SECTIONS
-from labcheck.grading import GENERIC_SLIPS, evaluate_chain, grade_submission, method_inputs
-from labcheck.ingest import read_rows
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
-from labcheck.submission import normalise
-from labcheck.units import from_si
+from labcheck.grading.grade import GENERIC_SLIPS, evaluate_chain, grade_submission, method_inputs
+from labcheck.reading.ingest import read_rows
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
+from labcheck.reading.submission import normalise
+from labcheck.base.units import from_si
 
 from conftest import csv_bytes
 

@@ -7,9 +7,9 @@ import zipfile
 import openpyxl
 import pytest
 
-from labcheck.cli import main
+from labcheck.cli.main import main
 from labcheck.demo import SECTIONS
-from labcheck.outputs import neutralise_cell
+from labcheck.report.outputs import neutralise_cell
 
 from conftest import csv_bytes, good_dip_rows
 
@@ -224,7 +224,7 @@ def test_help_has_an_example(command, capsys):
 
 
 def test_a_crash_on_one_file_does_not_stop_the_batch(tmp_path, monkeypatch, capsys):
-    import labcheck.batch as batch
+    import labcheck.run.batch as batch
 
     real = batch.grade_submission
 
@@ -255,7 +255,7 @@ def test_spec_check_of_a_lab_without_accuracy(capsys):
 
 
 def test_every_shipped_spec_checks(capsys):
-    from labcheck.resources import specs_dir
+    from labcheck.base.resources import specs_dir
 
     for f in sorted(specs_dir().glob("*.toml")):
         assert main(["spec", "check", str(f)]) == 0, f.name
@@ -264,7 +264,7 @@ def test_every_shipped_spec_checks(capsys):
 def test_diff_lists_exactly_the_students_a_tolerance_change_moves(tmp_path, capsys):
     # Two runs of one section; the second with a tighter tolerance on dip.radius_apparent.
     # Which students move is worked out here from the first run's own numbers.
-    from labcheck.resources import shipped_spec
+    from labcheck.base.resources import shipped_spec
 
     (tmp_path / "in").mkdir()
     rows_list = {

@@ -7,7 +7,6 @@ independent PDF reader, for their page count and text.
 
 import csv
 import json
-import os
 import signal
 import sqlite3
 import subprocess
@@ -18,11 +17,11 @@ from pathlib import Path
 import pypdf
 import pytest
 
-from labcheck.course import DB_NAME, SCHEMA_VERSION, Course, CourseError
+from labcheck.course.record import DB_NAME, SCHEMA_VERSION, Course, CourseError
 from labcheck.demo.course import STUDENTS, _widened, build_course_inputs
-from labcheck.ingest import read_roster
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
+from labcheck.reading.ingest import read_roster
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
 
 
 @pytest.fixture(scope="module")
@@ -42,7 +41,7 @@ def _new_course(tmp_path, inputs) -> Course:
 
 
 def _step(record_row, step):
-    from labcheck.course import _record
+    from labcheck.course.record import _record
 
     return next((s for s in _record(record_row)["steps"] if s["id"] == step), {"verdict": None})
 
@@ -151,7 +150,7 @@ def test_export_one_row_per_roster_student_and_totals_equal_the_record(tmp_path,
     assert [r[0] for r in body] == [s[0] for s in STUDENTS]  # one row per roster student, roster order
     # The record's totals computed here independently: each current result's score, each step adjustment
     # replacing that step's points, each lab adjustment added, clamped to 0..max.
-    from labcheck.course import _record
+    from labcheck.course.record import _record
 
     for lab, col in (("horizon_dip", 3), ("taped_baseline", 4)):
         current = course.current_results(lab)
@@ -206,7 +205,7 @@ while time.time() < deadline:
 print("OK", sorted(seen), checks)
 """], stdout=subprocess.PIPE, text=True)
     time.sleep(0.2)
-    done = subprocess.run([sys.executable, "-m", "labcheck.cli", "course", "grade", str(tmp_path / "course"),
+    done = subprocess.run([sys.executable, "-m", "labcheck.cli.main", "course", "grade", str(tmp_path / "course"),
                            "horizon_dip", str(inputs.inputs["horizon_dip"]), "--quiet", "--jobs", "1"],
                           capture_output=True, text=True)
     assert done.returncode in (0, 1), done.stderr
@@ -223,14 +222,14 @@ def test_a_killed_grade_leaves_the_record_as_it_was(tmp_path, inputs, dip_spec):
     # Kill the grading process just before its database transaction (files written, nothing recorded).
     script = f"""
 import os, signal
-from labcheck import course as c
+from labcheck.course import record as c
 real = c.Course.transaction
 def dying(self):
     if self.conn.execute("SELECT count(*) FROM runs").fetchone()[0] >= 1:
         os.kill(os.getpid(), signal.SIGKILL)
     return real(self)
 c.Course.transaction = dying
-from labcheck.cli import main
+from labcheck.cli.main import main
 main(["course", "grade", {str(tmp_path / 'course')!r}, "horizon_dip", {str(inputs.inputs['horizon_dip'])!r},
       "--quiet", "--jobs", "1"])
 """
@@ -277,7 +276,7 @@ def test_pdf_sheets_page_count_and_text(tmp_path, inputs, dip_spec):
 
 def test_a_version_1_record_is_migrated_in_place(tmp_path):
     """A record written by schema 1 (before the identity decisions) opens with its data and the new tables."""
-    from labcheck.course import MIGRATIONS
+    from labcheck.course.record import MIGRATIONS
 
     folder = tmp_path / "old"
     folder.mkdir()
@@ -318,7 +317,7 @@ def test_identity_decisions_assign_and_accept(tmp_path, inputs):
 
 
 def test_course_commands_from_the_command_line(tmp_path, inputs, capsys):
-    from labcheck.cli import main
+    from labcheck.cli.main import main
 
     c = str(tmp_path / "c")
     assert main(["course", "new", c, "--roster", str(inputs.roster)]) == 0
@@ -357,7 +356,7 @@ def test_page_size_from_the_spec(tmp_path, inputs, dip_spec):
     assert (round(float(box.width)), round(float(box.height))) == (612, 792)
     bad = tmp_path / "bad.toml"
     bad.write_text(text.replace('page_size = "letter"', 'page_size = "A5"'), encoding="utf-8")
-    from labcheck.spec import SpecError
+    from labcheck.model.spec import SpecError
 
     with pytest.raises(SpecError, match='page_size.*expected "A4" or "letter"'):
         load_spec(bad)

@@ -34,8 +34,8 @@ def test_methods_doc_names_every_step_and_mistake():
 
 def test_course_doc_matches_the_code(tmp_path):
     """docs/course.md states the alias lists, the fuzzy threshold and margin, and every table and column."""
-    from labcheck import identity
-    from labcheck.course import Course
+    from labcheck.reading import identity
+    from labcheck.course.record import Course
 
     text = (ROOT / "docs" / "course.md").read_text(encoding="utf-8")
     assert ", ".join(identity.ID_HEADINGS) in text

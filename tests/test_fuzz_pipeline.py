@@ -14,11 +14,11 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from labcheck.batch import _SectionRun
+from labcheck.run.batch import _SectionRun
 from labcheck.demo import SECTIONS, csv_bytes, xlsx_bytes
-from labcheck.ingest import read_rows
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
+from labcheck.reading.ingest import read_rows
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
 
 FUZZ = settings(max_examples=400, deadline=None, derandomize=True,
                 suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
@@ -116,7 +116,7 @@ def test_byte_level_mutations_never_escape(data):
 @settings(max_examples=8, deadline=None, derandomize=True)
 @given(data=st.data())
 def test_a_mutated_batch_accounts_for_every_input(tmp_path_factory, data):
-    from labcheck.cli import main
+    from labcheck.cli.main import main
 
     tmp = tmp_path_factory.mktemp("batch")
     lab, _ = data.draw(st.sampled_from(_seeds()))

@@ -10,7 +10,7 @@ import math
 import pytest
 
 from labcheck.reductions import horizon as hz
-from labcheck.spec import AccuracyRule
+from labcheck.model.spec import AccuracyRule
 
 from conftest import ARCMIN, good_dip_rows, grade_rows, step
 
@@ -206,7 +206,7 @@ def test_dms_with_a_blank_unit_is_read_as_dms(spec):
 )
 def test_transposed_digits(written, right, expected):
     # Definition of a transposition (common practice in checking copied figures).
-    from labcheck.grading import transposed_digits
+    from labcheck.grading.grade import transposed_digits
 
     assert transposed_digits(written, right) is expected
 
@@ -221,7 +221,7 @@ def test_transposed_mean_is_named(spec):
 def test_a_slip_that_lands_on_zero_is_not_a_diagnosis(spec):
     # Regression: a blank-like 0 for a small value was named "km written where metres are asked"
     # because value/1000 fell inside the tolerance of 0.  A slip must be told apart from zero.
-    from labcheck.grading import GENERIC_SLIPS, _diagnose
+    from labcheck.grading.grade import GENERIC_SLIPS, _diagnose
 
     rule = spec.steps["dip_mean"]
     tiny = 0.01 * ARCMIN  # smaller than the 0.02' tolerance after any scale slip below 1

@@ -16,11 +16,11 @@ import numpy as np
 from hypothesis import HealthCheck, assume, given, settings, strategies as st
 from pvlib import spa
 
-from labcheck.grading import grade_submission
-from labcheck.ingest import read_rows
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
-from labcheck.submission import normalise
+from labcheck.grading.grade import grade_submission
+from labcheck.reading.ingest import read_rows
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
+from labcheck.reading.submission import normalise
 
 from conftest import csv_bytes
 

@@ -8,12 +8,12 @@ import zipfile
 
 import pytest
 
-from labcheck.batch import sheet_file_name
-from labcheck.cli import main
+from labcheck.run.batch import sheet_file_name
+from labcheck.cli.main import main
 from labcheck.demo import xlsx_bytes
-from labcheck.ingest import Limits, RawSubmission, iter_submissions, read_rows
-from labcheck.outputs import neutralise_cell
-from labcheck.submission import normalise
+from labcheck.reading.ingest import Limits, RawSubmission, iter_submissions, read_rows
+from labcheck.report.outputs import neutralise_cell
+from labcheck.reading.submission import normalise
 
 from conftest import csv_bytes, good_dip_rows
 
@@ -128,9 +128,9 @@ def test_a_zip_declaring_a_million_members_is_refused_unopened(tmp_path):
 
 
 def test_a_submission_from_another_labs_template(tmp_path, capsys):
-    from labcheck.resources import shipped_spec
-    from labcheck.spec import load_spec
-    from labcheck.template import template_rows
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
+    from labcheck.report.template import template_rows
 
     taped = load_spec(shipped_spec("taped_baseline"))
     rows = [(p, i, "12.5" if p != "identity" else "s9", u) for p, i, v, u, n, d in template_rows(taped)]
@@ -186,9 +186,9 @@ def test_sheet_names_stay_unique_case_insensitively():
     ("taped_baseline", "forward_tape_reading", ["9e11", "1e-150", "30.0"], "m"),
 ])
 def test_extreme_but_finite_readings_are_graded_or_refused_never_a_fault(tmp_path, lab, item, values, unit):
-    from labcheck.batch import _SectionRun
-    from labcheck.resources import shipped_spec
-    from labcheck.spec import load_spec
+    from labcheck.run.batch import _SectionRun
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
 
     spec = load_spec(shipped_spec(lab))
     rows = [("identity", "student_id", "s1"), ("observation", "eye_height", "12.5", "m")]

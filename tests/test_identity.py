@@ -2,23 +2,22 @@
 
 Every reconciliation that is not an exact id match must be reported (record["identity"] and a flag), and a
 file must never be credited to a student silently.  The fuzzy name threshold is labcheck's own policy
-(labcheck/identity.py); the scores asserted here are rapidfuzz's token_sort_ratio, computed by rapidfuzz.
+(labcheck/reading/identity.py); the scores asserted here are rapidfuzz's token_sort_ratio, computed by rapidfuzz.
 """
 
 import csv
-import io
 import json
 import zipfile
 
 import pytest
 from rapidfuzz import fuzz, utils
 
-from labcheck.batch import grade_section
-from labcheck.identity import (NAME_MATCH_MARGIN, NAME_MATCH_THRESHOLD, Roster, RosterEntry, export_time,
-                               normalise_id, reconcile)
-from labcheck.ingest import InputError, read_roster
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec
+from labcheck.run.batch import grade_section
+from labcheck.reading.identity import (NAME_MATCH_MARGIN, NAME_MATCH_THRESHOLD, Roster, RosterEntry, export_time,
+                                        reconcile)
+from labcheck.reading.ingest import InputError, read_roster
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
 
 from conftest import csv_bytes, good_dip_rows
 
@@ -227,7 +226,7 @@ def test_identity_problems_are_listed_in_the_batch(tmp_path, dip_spec):
 
 def test_diff_compares_the_files_that_count(tmp_path, dip_spec):
     """Two runs of a section where one student sent two files: diff compares the counted one only."""
-    from labcheck.compare import diff_runs, load_results
+    from labcheck.grading.compare import diff_runs, load_results
 
     roster = tmp_path / "roster.csv"
     roster.write_text("student_id,name\ns1005,Amara Hollinsworth\n", encoding="utf-8")

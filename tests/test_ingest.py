@@ -5,7 +5,7 @@ import zipfile
 import pytest
 
 from labcheck.demo import xlsx_bytes
-from labcheck.ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster, read_rows
+from labcheck.reading.ingest import InputError, Limits, RawSubmission, Skipped, iter_submissions, read_roster, read_rows
 
 from conftest import csv_bytes, good_dip_rows
 

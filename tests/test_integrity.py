@@ -8,10 +8,10 @@ import pytest
 
 from labcheck.demo.common import csv_bytes
 from labcheck.demo.dip import dip_section
-from labcheck.grading import grade_submission
-from labcheck.ingest import read_rows
-from labcheck.integrity import P_LEAD, collect_evidence, find_leads
-from labcheck.submission import normalise
+from labcheck.grading.grade import grade_submission
+from labcheck.reading.ingest import read_rows
+from labcheck.grading.integrity import P_LEAD, collect_evidence, find_leads
+from labcheck.reading.submission import normalise
 
 
 def screen(spec, groups):
@@ -61,7 +61,7 @@ def test_known_copies_and_fabrications_are_found(spec, honest_200):
 
 
 def test_a_result_too_close_to_the_reference_is_a_lead():
-    from labcheck.integrity import Evidence
+    from labcheck.grading.integrity import Evidence
 
     close = Evidence("s1", "", (), (), None, {"dip": 0.0004})
     fine = Evidence("s2", "", (), (), None, {"dip": 0.3})
@@ -71,7 +71,7 @@ def test_a_result_too_close_to_the_reference_is_a_lead():
 
 
 def test_leads_never_reach_a_student_sheet(tmp_path):
-    from labcheck.cli import main
+    from labcheck.cli.main import main
 
     out = tmp_path / "demo"
     main(["demo", "--out", str(out), "--quiet"])
@@ -97,7 +97,7 @@ def test_prefix_filtering_finds_exactly_the_brute_force_pairs(seed, copies):
     # Issue 12: candidate pairs by exact prefix filtering must equal a comparison of all pairs, on
     # seeded sections of unique readings with and without planted near-copies (some sharing only
     # readings common to many submissions, which the old inverted-index heuristic skipped).
-    from labcheck.integrity import JACCARD_LEAD, MIN_SHARED, similar_pairs
+    from labcheck.grading.integrity import JACCARD_LEAD, MIN_SHARED, similar_pairs
 
     rng = random.Random(seed)
     common = [f"dip_angle={v / 10:.1f}" for v in range(55, 65)]  # readings many honest groups write

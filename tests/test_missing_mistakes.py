@@ -8,11 +8,11 @@ group's recomputed inputs by the mistake's meaning (not by the variant's code), 
 import math
 
 from labcheck.demo import SECTIONS
-from labcheck.grading import evaluate_chain, grade_submission, method_inputs
-from labcheck.ingest import read_rows
-from labcheck.resources import shipped_spec
-from labcheck.spec import load_spec, parse_spec
-from labcheck.submission import normalise
+from labcheck.grading.grade import evaluate_chain, grade_submission, method_inputs
+from labcheck.reading.ingest import read_rows
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec, parse_spec
+from labcheck.reading.submission import normalise
 
 from conftest import csv_bytes
 from test_catalogue import honest_groups, with_result

@@ -13,7 +13,7 @@ from pathlib import Path
 import pytest
 
 from labcheck import methods as registry
-from labcheck.cli import main
+from labcheck.cli.main import main
 
 EXAMPLE = Path(__file__).parent / "data" / "plugin_example"
 
@@ -78,8 +78,8 @@ def test_a_broken_or_clashing_plugin_is_named_not_a_crash(tmp_path, monkeypatch)
         registry.load_plugins(reload=True)
         assert "failed to load" in registry.PLUGIN_ERRORS["broken"]
         assert "would replace labcheck's own method 'dip'" in registry.PLUGIN_ERRORS["dip"]
-        from labcheck.spec import SpecError, parse_spec
-        from labcheck.resources import shipped_spec
+        from labcheck.model.spec import SpecError, parse_spec
+        from labcheck.base.resources import shipped_spec
 
         text = shipped_spec("horizon_dip").read_text().replace('methods = ["dip", "hidden_height"]', 'methods = ["broken"]')
         with pytest.raises(SpecError, match="an installed plugin names it, but the package that provides it failed"):

@@ -9,8 +9,8 @@ import math
 
 import pytest
 
-from labcheck.ingest import read_rows
-from labcheck.submission import normalise
+from labcheck.reading.ingest import read_rows
+from labcheck.reading.submission import normalise
 
 from conftest import csv_bytes
 
@@ -105,8 +105,8 @@ def test_a_semicolon_file_writes_decimal_commas(spec):
 
 def test_hemisphere_letters_before_and_after():
     # docs/submissions.md shows `W 63 34 10`; 63 of 400 honest baseline submissions lost steps to it (issue 8).
-    from labcheck.resources import shipped_spec
-    from labcheck.spec import load_spec
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
 
     spec = load_spec(shipped_spec("baseline_radius"))
     rows = [("identity", "student_id", "s1"), ("observation", "lat_1", "N 25 45 09.7"), ("observation", "lon_1", "W 63 34 10"),
@@ -121,8 +121,8 @@ def test_hemisphere_letters_before_and_after():
 
 
 def test_a_precision_written_1_to_n():
-    from labcheck.resources import shipped_spec
-    from labcheck.spec import load_spec
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
 
     spec = load_spec(shipped_spec("taped_baseline"))
     rows = [("identity", "student_id", "s1"), ("result", "precision_ratio", "1:7984")]

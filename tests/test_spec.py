@@ -4,8 +4,8 @@ from pathlib import Path
 
 import pytest
 
-from labcheck.resources import shipped_spec, specs_dir
-from labcheck.spec import SCHEMA_DOC, SpecError, load_spec, parse_spec
+from labcheck.base.resources import shipped_spec, specs_dir
+from labcheck.model.spec import SCHEMA_DOC, SpecError, load_spec, parse_spec
 
 DOCS = Path(__file__).resolve().parent.parent / "docs" / "spec.md"
 
@@ -157,7 +157,7 @@ def test_malformed_specs_are_refused_with_their_key_path(name, edit, key, messag
 
 
 def test_malformed_spec_on_the_command_line_is_exit_2_without_traceback(tmp_path, capsys):
-    from labcheck.cli import main
+    from labcheck.cli.main import main
 
     f = tmp_path / "bad.toml"
     f.write_text(base().replace('methods = ["dip", "hidden_height"]', 'methods = [{ id = "dip" }]'))

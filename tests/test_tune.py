@@ -2,10 +2,10 @@ import pytest
 """labcheck tune: the sweep moves exactly the values it should, and writes only when asked."""
 
 
-from labcheck.cli import main
-from labcheck.ingest import read_rows
-from labcheck.submission import normalise
-from labcheck.tune import tune
+from labcheck.cli.main import main
+from labcheck.reading.ingest import read_rows
+from labcheck.reading.submission import normalise
+from labcheck.grading.tune import tune
 
 from conftest import csv_bytes, good_dip_rows
 
@@ -46,8 +46,8 @@ def test_tune_writes_only_when_asked(tmp_path, capsys, spec):
 
 def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
     # Issue 9: "0.02 arcmin ×0.25" instead of the value, and methods counted where students are meant.
-    from labcheck.cli import format_tune_report
-    from labcheck.tune import _scaled
+    from labcheck.cli.main import format_tune_report
+    from labcheck.grading.tune import _scaled
 
     assert _scaled(spec.steps["dip_mean"].tolerance, 0.25).text == "0.005 arcmin"
     subs = [normalise(read_rows(csv_bytes(good_dip_rows(h=10 + i, sid=f"s{i}")), f"{i}.csv"), spec) for i in range(4)]
@@ -65,10 +65,10 @@ def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
     from dataclasses import replace
 
     from labcheck.demo import SECTIONS
-    from labcheck.grading import grade_submission
-    from labcheck.resources import shipped_spec
-    from labcheck.spec import load_spec
-    from labcheck.tune import MULTIPLIERS, _scaled
+    from labcheck.grading.grade import grade_submission
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
+    from labcheck.grading.tune import MULTIPLIERS, _scaled
 
     spec = load_spec(shipped_spec(lab))
     section = next(s for s in SECTIONS if s.lab == lab)

@@ -5,9 +5,9 @@ import math
 import numpy as np
 import pytest
 
-from labcheck.chain import evaluate_chain
+from labcheck.model.chain import evaluate_chain
 from labcheck.methods import METHODS
-from labcheck.uncertainty import propagate
+from labcheck.model.uncertainty import propagate
 
 ARCMIN = math.radians(1 / 60)
 
@@ -64,7 +64,7 @@ def test_no_sigma_no_uncertainty():
 def test_sigma_accuracy_rule_in_a_spec(spec):
     from dataclasses import replace
 
-    from labcheck.spec import AccuracyRule
+    from labcheck.model.spec import AccuracyRule
     from conftest import good_dip_rows, grade_rows
 
     sigma_rule = AccuracyRule(4, 2.0, 4.0, "sigma", "full points within 2 sigma")

@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from labcheck.units import read_value, UnitError, from_si, parse_dms_deg, parse_number, parse_quantity, parse_value, to_si
+from labcheck.base.units import read_value, UnitError, from_si, parse_dms_deg, parse_number, parse_quantity, parse_value, to_si
 
 
 @pytest.mark.parametrize(

@@ -14,11 +14,11 @@ import openpyxl
 import pytest
 
 from labcheck.demo import SECTIONS, xlsx_bytes
-from labcheck.ingest import read_rows
-from labcheck.resources import specs_dir
-from labcheck.spec import load_spec
-from labcheck.template import write_template
-from labcheck.xlsx import UNSAVED_FORMULA, Book
+from labcheck.reading.ingest import read_rows
+from labcheck.base.resources import specs_dir
+from labcheck.model.spec import load_spec
+from labcheck.report.template import write_template
+from labcheck.reading.xlsx import UNSAVED_FORMULA, Book
 
 WIDTH = 6
 
@@ -135,7 +135,7 @@ def test_a_hostile_entity_expansion_is_refused():
 def test_a_formula_in_the_note_costs_the_note_not_the_row(spec):
     # The demo's hostile note "=1+1 <b>…</b>" is saved by openpyxl as a formula with no value: the
     # row's value must still be read (only a formula in part, item, value or unit makes the row unusable).
-    from labcheck.submission import normalise
+    from labcheck.reading.submission import normalise
 
     data = xlsx_bytes([("identity", "site", "Upper Harrowby", "", "=1+1 <b>check</b>"),
                        ("observation", "eye_height", "12.5", "m", "")])

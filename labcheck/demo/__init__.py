@@ -4,6 +4,9 @@ Every section is generated from a known truth with realistic noise (seeded:
 the same demo every time), packed as an LMS-style zip export with a roster,
 and graded by ``labcheck demo``.  ``PLANTED`` maps each group number to the
 mistake labcheck must find and the step where it shows.
+
+Demo layer: may import every layer but the command line (``common.py`` is base: it imports nothing of
+labcheck's).
 """
 
 from __future__ import annotations
@@ -14,8 +17,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
-from . import baselines, dip, zenith
-from .common import DemoGroup, csv_bytes, semicolon_csv_bytes, xlsx_bytes
+from labcheck.demo import baselines, dip, zenith
+from labcheck.demo.common import DemoGroup, csv_bytes, semicolon_csv_bytes, xlsx_bytes
 
 __all__ = ["Section", "SECTIONS", "build_demo", "csv_bytes", "xlsx_bytes", "DemoGroup"]
 
@@ -59,9 +62,9 @@ SECTIONS = (
 
 def _filled_template(lab: str, student_id: str) -> list[tuple]:
     """Another lab's blank template with an identity and a number in every observation row."""
-    from ..resources import shipped_spec
-    from ..spec import load_spec
-    from ..template import template_rows
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
+    from labcheck.report.template import template_rows
 
     rows = []
     for part, item, _value, unit, _note, _description in template_rows(load_spec(shipped_spec(lab))):

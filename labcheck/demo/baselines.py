@@ -16,8 +16,8 @@ import math
 import numpy as np
 from geographiclib.geodesic import Geodesic
 
-from ..reductions import baseline as bl
-from .common import DemoGroup, dms, identity_rows, num, person, sig
+from labcheck.reductions import baseline as bl
+from labcheck.demo.common import DemoGroup, dms, identity_rows, num, person, sig
 
 __all__ = [
     "taped_section", "TAPED_PLANTED", "TAPED_MISSING",

@@ -12,7 +12,7 @@ generated field data and given the course's own ids and names.  Planted on purpo
 * two adjustments (one on a step, one on a lab's total), then a regrade of the dip lab with a widened
   tolerance, after which the step adjustment is flagged for review.
 
-Run layer: builds files and drives :class:`labcheck.course.Course`; prints nothing (``labcheck demo`` does).
+Run layer: builds files and drives :class:`labcheck.course.record.Course`; prints nothing (``labcheck demo`` does).
 """
 
 from __future__ import annotations
@@ -23,8 +23,8 @@ import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from . import baselines, dip
-from .common import csv_bytes, person, semicolon_csv_bytes, xlsx_bytes
+from labcheck.demo import baselines, dip
+from labcheck.demo.common import csv_bytes, person, semicolon_csv_bytes, xlsx_bytes
 
 __all__ = ["CourseDemo", "run_course_demo", "STUDENTS"]
 
@@ -131,10 +131,10 @@ def _widened(spec_text: str, step: str, tolerance: str) -> str:
 
 def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDemo:
     """Build the course and take it through every step; returns what happened and where."""
-    from ..course import Course
-    from ..ingest import read_roster
-    from ..resources import shipped_spec
-    from ..spec import load_spec
+    from labcheck.course.record import Course
+    from labcheck.reading.ingest import read_roster
+    from labcheck.base.resources import shipped_spec
+    from labcheck.model.spec import load_spec
 
     demo = build_course_inputs(folder / "inputs")
     course_dir = folder / "geod2150"
@@ -178,7 +178,7 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
         demo.runs["horizon_dip"].append(run_id)
         demo.flagged = sum(1 for a in course.run_adjustments(run_id) if a["changed"])
 
-        from ..compare import diff_runs, load_results
+        from labcheck.grading.compare import diff_runs, load_results
 
         d = diff_runs(load_results(course.run_folder(demo.runs["horizon_dip"][0])),
                       load_results(course.run_folder(run_id)))
@@ -199,7 +199,7 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
 
 
 def _step(row, step_id: str) -> str | None:
-    from ..course import _record
+    from labcheck.course.record import _record
 
     for s in _record(row).get("steps", []):
         if s["id"] == step_id:

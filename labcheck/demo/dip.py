@@ -18,8 +18,8 @@ import math
 
 import numpy as np
 
-from ..reductions import horizon as hz
-from .common import DemoGroup, dms, num, person, sig
+from labcheck.reductions import horizon as hz
+from labcheck.demo.common import DemoGroup, dms, num, person, sig
 
 __all__ = ["PLANTED", "MISSING_STUDENT", "UNREADABLE", "COPIED", "FABRICATED", "LEADS", "WRONG_LAB_FILE", "dip_section"]
 

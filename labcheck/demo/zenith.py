@@ -17,9 +17,9 @@ from datetime import datetime, timedelta, timezone
 
 import numpy as np
 
-from ..reductions import sun
-from ..reductions import zenith as zn
-from .common import DemoGroup, identity_rows, num, person
+from labcheck.reductions import sun
+from labcheck.reductions import zenith as zn
+from labcheck.demo.common import DemoGroup, identity_rows, num, person
 
 __all__ = ["gnomon_section", "GNOMON_PLANTED", "GNOMON_NOTES", "sextant_section", "SEXTANT_PLANTED",
            "arc_section", "ARC_PLANTED", "theodolite_section", "THEODOLITE_PLANTED"]

@@ -4,14 +4,16 @@ A package adds methods through the entry-point group ``labcheck.methods``: each 
 :class:`~labcheck.methods.base.Method` (``leveling = my_dept_labs:LEVELING`` in its ``pyproject.toml``
 under ``[project.entry-points."labcheck.methods"]``).  They are loaded once, the first time a spec is
 read (:func:`load_plugins`); docs/plugins.md has a worked example.
+
+Methods layer: may import only :mod:`labcheck.base` and :mod:`labcheck.reductions`.
 """
 
 from __future__ import annotations
 
-from .base import Alternative, Constant, Method, Observation, Reference, Step, Variant
-from .baseline import BASELINE_RADIUS, ODOMETER, TAPED
-from .horizon import DIP, HIDDEN_HEIGHT
-from .zenith import FACE_PAIRS, GNOMON, HEIGHTING, MERIDIAN_ARC, RECIPROCAL, SEXTANT
+from labcheck.methods.base import Alternative, Constant, Method, Observation, Reference, Step, Variant
+from labcheck.methods.baseline import BASELINE_RADIUS, ODOMETER, TAPED
+from labcheck.methods.horizon import DIP, HIDDEN_HEIGHT
+from labcheck.methods.zenith import FACE_PAIRS, GNOMON, HEIGHTING, MERIDIAN_ARC, RECIPROCAL, SEXTANT
 
 METHODS: dict[str, Method] = {m.id: m for m in (DIP, HIDDEN_HEIGHT, TAPED, ODOMETER, BASELINE_RADIUS, GNOMON, SEXTANT, MERIDIAN_ARC, FACE_PAIRS, HEIGHTING, RECIPROCAL)}
 BUILT_IN = frozenset(METHODS)

@@ -15,9 +15,9 @@ import math
 
 import numpy as np
 
-from ..reductions import baseline as bl
-from ..reductions.ellipsoid import local_arc_reference
-from .base import Alternative, Constant, Method, Observation, Reference, Step, formula_variant, input_variant
+from labcheck.reductions import baseline as bl
+from labcheck.reductions.ellipsoid import local_arc_reference
+from labcheck.methods.base import Alternative, Constant, Method, Observation, Reference, Step, formula_variant, input_variant
 
 RUNS = ("forward", "back")
 _TAPE_SOURCE = "standard tape corrections (e.g. Ghilani & Wolf, Elementary Surveying, taping chapter)"

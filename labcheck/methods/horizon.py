@@ -10,8 +10,8 @@ import math
 
 import numpy as np
 
-from ..reductions import horizon as hz
-from .base import Alternative, Constant, Method, Observation, Reference, Step, formula_variant, input_variant
+from labcheck.reductions import horizon as hz
+from labcheck.methods.base import Alternative, Constant, Method, Observation, Reference, Step, formula_variant, input_variant
 
 FT = 0.3048  # international foot, m
 

@@ -1,6 +1,6 @@
 """The generic slips the diagnosis tries on every step: unit and factor slips of the pen.
 
-Data only (the diagnosis that uses them is in :mod:`labcheck.grading`); kept with the methods so that
+Data only (the diagnosis that uses them is in :mod:`labcheck.grading.grade`); kept with the methods so that
 the spec validator can check slip names without importing grading.  Factors are exact: 1 ft = 0.3048 m
 (1959 international yard and pound agreement), 1 mi = 1609.344 m, 1 nmi = 1852 m.
 """

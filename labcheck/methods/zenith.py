@@ -13,11 +13,11 @@ from datetime import datetime, timezone
 
 import numpy as np
 
-from ..reductions import sun
-from ..reductions import zenith as zn
-from ..reductions.ellipsoid import meridian_radius
-from ..reductions.baseline import radius_from_arc
-from .base import Constant, Method, Observation, Reference, Step, formula_variant, input_variant
+from labcheck.reductions import sun
+from labcheck.reductions import zenith as zn
+from labcheck.reductions.ellipsoid import meridian_radius
+from labcheck.reductions.baseline import radius_from_arc
+from labcheck.methods.base import Constant, Method, Observation, Reference, Step, formula_variant, input_variant
 
 _LAT = (-math.pi / 2, math.pi / 2)
 _LON = (-math.pi, math.pi)

@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from .distributions import chi2_cdf, chi2_sf, t_isf
+from labcheck.reductions.distributions import chi2_cdf, chi2_sf, t_isf
 
 __all__ = ["scatter_test", "grubbs_critical", "grubbs_test", "terminal_digit_test"]
 

@@ -27,7 +27,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from . import spa_terms
+from labcheck.reductions import spa_terms
 
 __all__ = [
     "julian_day",

@@ -1,6 +1,6 @@
 """``labcheck course ...``: the course record from the command line (wiring and printing only).
 
-CLI layer: may import anything below.  The work is done by :mod:`labcheck.course`; this module reads the
+CLI layer: may import anything below.  The work is done by :mod:`labcheck.course.record`; this module reads the
 options, prints what happened and where, and returns the exit status.
 """
 
@@ -24,14 +24,14 @@ EXAMPLES = """examples:
 
 
 def _open(folder):
-    from .course import Course
+    from labcheck.course.record import Course
 
     return Course.open(folder)
 
 
 def cmd_new(args) -> int:
-    from .course import Course
-    from .ingest import read_roster
+    from labcheck.course.record import Course
+    from labcheck.reading.ingest import read_roster
 
     roster = read_roster(args.roster, args.id_column, args.name_column, args.section)
     with Course.create(args.dir, args.title or "") as course:
@@ -43,7 +43,7 @@ def cmd_new(args) -> int:
 
 
 def cmd_roster(args) -> int:
-    from .ingest import read_roster
+    from labcheck.reading.ingest import read_roster
 
     roster = read_roster(args.roster, args.id_column, args.name_column, args.section)
     with _open(args.dir) as course:
@@ -54,8 +54,8 @@ def cmd_roster(args) -> int:
 
 
 def cmd_grade(args) -> int:
-    from .batch import count_inputs
-    from .cli import _print_summary, _progress, _resolve_spec
+    from labcheck.run.batch import count_inputs
+    from labcheck.cli.main import _print_summary, _progress, _resolve_spec
 
     spec = _resolve_spec(args.spec)
     with _open(args.dir) as course:
@@ -78,7 +78,7 @@ def cmd_grade(args) -> int:
 
 def _adjust_rows(path: str) -> list[dict]:
     """The CSV form: columns student_id, lab, step (may be blank), points, reason."""
-    from .ingest import InputError
+    from labcheck.reading.ingest import InputError
 
     try:
         with open(path, newline="", encoding="utf-8-sig") as fh:
@@ -110,7 +110,7 @@ def _adjust_rows(path: str) -> list[dict]:
 
 
 def cmd_adjust(args) -> int:
-    from .course import CourseError
+    from labcheck.course.record import CourseError
 
     with _open(args.dir) as course:
         if args.file:
@@ -191,7 +191,7 @@ def _list(title: str, items: list, line) -> None:
 
 
 def _header(text: str) -> tuple[str, str]:
-    from .course import CourseError
+    from labcheck.course.record import CourseError
 
     if "=" not in text:
         raise CourseError(f"--header {text!r}: write it as LAB=HEADING")
@@ -200,7 +200,7 @@ def _header(text: str) -> tuple[str, str]:
 
 
 def cmd_export(args) -> int:
-    from .course import CourseError
+    from labcheck.course.record import CourseError
 
     out = Path(args.out)
     if out.exists() and not args.force:
@@ -216,7 +216,7 @@ def cmd_export(args) -> int:
 
 
 def cmd_feedback(args) -> int:
-    from .course import CourseError
+    from labcheck.course.record import CourseError
 
     out = Path(args.out)
     if out.exists() and any(out.iterdir()) and not args.force:
@@ -232,9 +232,9 @@ def cmd_feedback(args) -> int:
 
 
 def cmd_history(args) -> int:
-    from .cli import format_diff
-    from .compare import diff_runs, load_results
-    from .course import CourseError
+    from labcheck.cli.main import format_diff
+    from labcheck.grading.compare import diff_runs, load_results
+    from labcheck.course.record import CourseError
 
     with _open(args.dir) as course:
         course._lab(args.lab)

@@ -6,8 +6,8 @@ import csv
 import io
 from pathlib import Path
 
-from .spec import LabSpec
-from .submission import IDENTITY_FIELDS
+from labcheck.model.spec import LabSpec
+from labcheck.reading.submission import IDENTITY_FIELDS
 
 __all__ = ["template_rows", "write_template", "TEMPLATE_COLUMNS"]
 

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
-from .ingest import RawSubmission, Row
-from .spec import LabSpec
-from .units import UnitError, decimal_convention, format_value, read_value
+from labcheck.reading.ingest import RawSubmission, Row
+from labcheck.model.spec import LabSpec
+from labcheck.base.units import UnitError, decimal_convention, format_value, read_value
 
 __all__ = ["IDENTITY_FIELDS", "ItemSpec", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
 

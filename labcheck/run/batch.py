@@ -28,17 +28,17 @@ from dataclasses import dataclass, field
 from pathlib import Path, PurePosixPath
 from typing import Callable
 
-from . import __version__
-from .adjust import apply_adjustments
-from .grading import grade_submission, missing_record, safe_id, unreadable_record
-from .integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
-from .identity import KEEP_POLICIES, Roster, keep_rank, reconcile
-from .ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
-from .labmatch import wrong_lab_message
-from .outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
-from .render import Renderer
-from .spec import LabSpec
-from .submission import normalise, observation_keys, result_keys
+from labcheck import __version__
+from labcheck.grading.adjust import apply_adjustments
+from labcheck.grading.grade import grade_submission, missing_record, safe_id, unreadable_record
+from labcheck.grading.integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
+from labcheck.reading.identity import KEEP_POLICIES, Roster, keep_rank, reconcile
+from labcheck.reading.ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
+from labcheck.grading.labmatch import wrong_lab_message
+from labcheck.report.outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
+from labcheck.report.render import Renderer
+from labcheck.model.spec import LabSpec
+from labcheck.reading.submission import normalise, observation_keys, result_keys
 
 __all__ = ["OutputExistsError", "OutputWriteError", "RunSummary", "grade_section", "count_inputs", "OUTPUT_NAMES",
            "EXIT_OK", "EXIT_INCOMPLETE", "EXIT_USAGE", "EXIT_LABCHECK_FAILED", "recover_output", "sheet_file_name"]
@@ -47,7 +47,7 @@ ERROR_LOG = "labcheck-errors.log"
 _SPOOL = ".gradebook-rows.jsonl"  # staging only: rows wait here until one file per student is chosen
 OUTPUT_NAMES = ("results.json", "gradebook.csv", "section.html", "feedback", "integrity.html", "integrity.json", ERROR_LOG)
 
-from .exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE  # noqa: F401 (re-exported)
+from labcheck.base.exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE  # noqa: F401 (re-exported)
 
 
 class OutputExistsError(Exception):
@@ -98,7 +98,7 @@ def count_inputs(inputs: list[str | Path]) -> int:
         elif p.suffix.lower() == ".zip":
             try:
                 with open(p, "rb") as fh:
-                    from .ingest import zip_directory_size
+                    from labcheck.reading.ingest import zip_directory_size
 
                     declared = zip_directory_size(fh)
                 n += declared[0] if declared and declared[0] <= Limits().max_zip_members else 1
@@ -379,7 +379,7 @@ def _die_with_parent() -> None:
 
 def _worker_init(spec_source: bytes, spec_path: str, roster, generated: str, assigned=None) -> None:
     global _WORKER
-    from .spec import parse_spec
+    from labcheck.model.spec import parse_spec
 
     _die_with_parent()
     _WORKER = _FileGrader(parse_spec(spec_source, spec_path), roster, generated, assigned)

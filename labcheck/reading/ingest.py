@@ -29,10 +29,10 @@ from pathlib import Path, PurePosixPath
 from typing import TYPE_CHECKING, Iterator
 
 if TYPE_CHECKING:
-    from .identity import Roster
+    from labcheck.reading.identity import Roster
 
-from . import xlsx
-from .xlsx import UNSAVED_FORMULA
+from labcheck.reading import xlsx
+from labcheck.reading.xlsx import UNSAVED_FORMULA
 
 __all__ = [
     "Limits",
@@ -448,7 +448,7 @@ def _csv_table(data: bytes, limits: Limits, raw: RawSubmission, tab_default: boo
 
 
 def _xlsx_table(data: bytes, limits: Limits, raw: RawSubmission) -> list[list[str]]:
-    """The sheet holding the header row, as text cells, read within the caps (see :mod:`labcheck.xlsx`).
+    """The sheet holding the header row, as text cells, read within the caps (see :mod:`labcheck.reading.xlsx`).
 
     Only the columns up to the last of ours are read, so a cell typed in the last column of a row costs
     nothing; reading stops past the row cap.
@@ -559,13 +559,13 @@ def read_roster(path: str | Path, id_column: str | None = None, name_column: str
     """Read a roster CSV as an LMS or a spreadsheet writes it (docs/course.md, "Rosters").
 
     Separators ``, ; tab |`` (found from the header row); UTF-8 (BOM or not), UTF-16 with a BOM, or
-    Windows-1252; the id and name columns by the aliases in :mod:`labcheck.identity` or as named;
+    Windows-1252; the id and name columns by the aliases in :mod:`labcheck.reading.identity` or as named;
     a name from first and last name columns when there is no name column; up to 5 title rows before
     the header; rows with no id, or with no name and spaces in the id (an LMS's "Points Possible" row),
     passed over.  ``section`` names the
     section of every student (else a section column, else blank).
     """
-    from .identity import Roster, RosterEntry, RosterError, roster_columns
+    from labcheck.reading.identity import Roster, RosterEntry, RosterError, roster_columns
 
     p = Path(path)
     try:

@@ -18,12 +18,12 @@ from pathlib import Path
 
 from typing import TYPE_CHECKING
 
-from . import __version__
-from .exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE
-from .resources import shipped_spec, specs_dir
+from labcheck import __version__
+from labcheck.base.exitcodes import EXIT_INCOMPLETE, EXIT_LABCHECK_FAILED, EXIT_OK, EXIT_USAGE
+from labcheck.base.resources import shipped_spec, specs_dir
 
 if TYPE_CHECKING:  # imported where used: `labcheck --help` and `check` stay quick to start
-    from .spec import LabSpec
+    from labcheck.model.spec import LabSpec
 
 # Every module below is imported inside the command that needs it (start-up time: docs/outputs.md).
 
@@ -49,7 +49,7 @@ class _Colour:
 
 def _resolve_spec(name: str) -> "LabSpec":
     """Load a spec by path, or by the id of a shipped spec (``horizon_dip``)."""
-    from .spec import SpecError, load_spec
+    from labcheck.model.spec import SpecError, load_spec
 
     p = Path(name)
     if not p.exists() and not p.suffix:
@@ -80,7 +80,7 @@ def _progress(total: int, stream):
 
 
 def cmd_grade(args) -> int:
-    from .batch import count_inputs, grade_section
+    from labcheck.run.batch import count_inputs, grade_section
 
     spec = _resolve_spec(args.spec)
     total = count_inputs(args.inputs) if all(Path(i).exists() for i in args.inputs) else 0
@@ -94,7 +94,7 @@ def cmd_grade(args) -> int:
 
 
 def _print_summary(run, spec: "LabSpec", out: Path, keep: str = "latest") -> None:
-    from .batch import ERROR_LOG
+    from labcheck.run.batch import ERROR_LOG
 
     c = _Colour(sys.stdout)
     print(f"{spec.title}")
@@ -131,9 +131,9 @@ def _print_summary(run, spec: "LabSpec", out: Path, keep: str = "latest") -> Non
 
 
 def cmd_check(args) -> int:
-    from .grading import grade_submission
-    from .ingest import InputError, Limits, read_rows
-    from .submission import normalise
+    from labcheck.grading.grade import grade_submission
+    from labcheck.reading.ingest import InputError, Limits, read_rows
+    from labcheck.reading.submission import normalise
 
     spec = _resolve_spec(args.spec)
     p = Path(args.file)
@@ -148,7 +148,7 @@ def cmd_check(args) -> int:
         print(f"{p.name}: unreadable: {raw.error}")
         return EXIT_INCOMPLETE
     sub = normalise(raw, spec)
-    from .labmatch import wrong_lab_message
+    from labcheck.grading.labmatch import wrong_lab_message
 
     wrong = wrong_lab_message(sub, spec)
     if wrong:
@@ -163,7 +163,7 @@ def cmd_check(args) -> int:
         print(f"{where}{f['message']}")
     for f in record["flags"]:
         print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
-    from .units import format_fixed
+    from labcheck.base.units import format_fixed
 
     head = f"  {'step':<32} {'recomputed':>14} {'yours':>14}  {'verdict':<16} {'points':>7}"
     print(head)
@@ -190,9 +190,9 @@ def cmd_check(args) -> int:
 
 
 def cmd_template(args) -> int:
-    from .batch import OutputExistsError
-    from .ingest import InputError
-    from .template import write_template
+    from labcheck.run.batch import OutputExistsError
+    from labcheck.reading.ingest import InputError
+    from labcheck.report.template import write_template
 
     spec = _resolve_spec(args.spec)
     out = Path(args.out)
@@ -206,8 +206,8 @@ def cmd_template(args) -> int:
 
 
 def cmd_spec(args) -> int:
-    from .ingest import InputError
-    from .spec import load_spec
+    from labcheck.reading.ingest import InputError
+    from labcheck.model.spec import load_spec
 
     if args.action == "list":
         for f in sorted(specs_dir().glob("*.toml")):
@@ -229,9 +229,9 @@ def cmd_spec(args) -> int:
 
 
 def cmd_demo(args) -> int:
-    from .batch import OutputExistsError, count_inputs, grade_section
-    from .demo import SECTIONS, build_demo
-    from .spec import load_spec
+    from labcheck.run.batch import OutputExistsError, count_inputs, grade_section
+    from labcheck.demo import SECTIONS, build_demo
+    from labcheck.model.spec import load_spec
 
     out = Path(args.out)
     if out.exists() and any(out.iterdir()):
@@ -277,8 +277,8 @@ COURSE_DEMO_FOLDER = "course"
 
 def _demo_course(out: Path, args) -> list[str]:
     """The demo course, from an LMS roster to an LMS grade file and PDFs; returns what did not go as planned."""
-    from .demo.course import run_course_demo
-    from .pdf import PdfError
+    from labcheck.demo.course import run_course_demo
+    from labcheck.report.pdf import PdfError
 
     print("\nDemo course GEOD 2150 (two labs, one roster, from an LMS export to an LMS import)")
     try:
@@ -362,11 +362,11 @@ def format_diff(d, old_name: str, new_name: str) -> str:
 
 
 def cmd_tune(args) -> int:
-    from .batch import OutputExistsError
-    from .ingest import InputError, RawSubmission, iter_submissions
-    from .spec import load_spec
-    from .submission import normalise
-    from .tune import tune, tuned_spec_text
+    from labcheck.run.batch import OutputExistsError
+    from labcheck.reading.ingest import InputError, RawSubmission, iter_submissions
+    from labcheck.model.spec import load_spec
+    from labcheck.reading.submission import normalise
+    from labcheck.grading.tune import tune, tuned_spec_text
 
     spec = _resolve_spec(args.spec)
     subs = [normalise(item, spec) for item in iter_submissions(args.inputs)
@@ -390,7 +390,7 @@ def cmd_tune(args) -> int:
 
 
 def cmd_diff(args) -> int:
-    from .compare import diff_runs, load_results
+    from labcheck.grading.compare import diff_runs, load_results
 
     old, new = load_results(args.old), load_results(args.new)
     d = diff_runs(old, new)
@@ -400,12 +400,12 @@ def cmd_diff(args) -> int:
 
 def _demo_tune_and_diff(spec: "LabSpec", zip_path: Path, roster: Path, folder: Path) -> None:
     """Show tune and diff on the dip section: a report, a tuned spec copy, a regrade, the diff."""
-    from .batch import grade_section
-    from .compare import diff_runs, load_results
-    from .spec import load_spec
-    from .ingest import RawSubmission, iter_submissions
-    from .submission import normalise
-    from .tune import tune, tuned_spec_text
+    from labcheck.run.batch import grade_section
+    from labcheck.grading.compare import diff_runs, load_results
+    from labcheck.model.spec import load_spec
+    from labcheck.reading.ingest import RawSubmission, iter_submissions
+    from labcheck.reading.submission import normalise
+    from labcheck.grading.tune import tune, tuned_spec_text
 
     subs = [normalise(i, spec) for i in iter_submissions([zip_path]) if isinstance(i, RawSubmission) and not i.error]
     report = tune(spec, subs)
@@ -516,7 +516,7 @@ def build_parser() -> argparse.ArgumentParser:
     _jobs_option(p)
     p.set_defaults(func=cmd_demo)
 
-    from .coursecli import add_course_parser
+    from labcheck.cli.course import add_course_parser
 
     add_course_parser(sub, fmt, _jobs_option, _roster_options)
     return parser
@@ -545,12 +545,12 @@ def _our_error(exc: Exception) -> int | None:
 
     Imported here, after the fact, so that start-up pays for none of these modules.
     """
-    from .batch import OutputExistsError, OutputWriteError
-    from .compare import ResultsError
-    from .ingest import InputError
-    from .course import CourseError
-    from .pdf import PdfError
-    from .spec import SpecError
+    from labcheck.run.batch import OutputExistsError, OutputWriteError
+    from labcheck.grading.compare import ResultsError
+    from labcheck.reading.ingest import InputError
+    from labcheck.course.record import CourseError
+    from labcheck.report.pdf import PdfError
+    from labcheck.model.spec import SpecError
 
     if isinstance(exc, (CourseError, PdfError)):
         print(f"labcheck: {exc}", file=sys.stderr)

@@ -14,8 +14,8 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .methods import METHODS, PLUGIN_ERRORS, Method, Step, load_plugins
-from .units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
+from labcheck.methods import METHODS, PLUGIN_ERRORS, Method, Step, load_plugins
+from labcheck.base.units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
 
 __all__ = ["SpecError", "QualityRule", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
 
@@ -531,7 +531,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             c.add(f"integrity.shared[{i}]", f"expected an observation item name, got {item!r}")
 
     mistakes = c.get(raw, "mistakes", "", dict, required=False, default={}) or {}
-    from .methods.slips import GENERIC_SLIPS  # the generic slips can be reworded too
+    from labcheck.methods.slips import GENERIC_SLIPS  # the generic slips can be reworded too
 
     known_mistakes = {v.id for m in methods for s in m.steps for v in s.variants}
     known_mistakes |= {slip.id for slips in GENERIC_SLIPS.values() for slip in slips} | {"digits_transposed"}

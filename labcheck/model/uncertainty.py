@@ -19,8 +19,8 @@ import math
 
 import numpy as np
 
-from .chain import downstream, evaluate_chain, evaluate_downstream
-from .methods import Method
+from labcheck.model.chain import downstream, evaluate_chain, evaluate_downstream
+from labcheck.methods import Method
 
 __all__ = ["propagate"]
 

@@ -16,7 +16,7 @@ from datetime import datetime, timezone
 from pathlib import Path
 from typing import IO
 
-from .spec import LabSpec
+from labcheck.model.spec import LabSpec
 
 __all__ = ["neutralise_cell", "ResultsWriter", "GradebookWriter", "gradebook_columns"]
 

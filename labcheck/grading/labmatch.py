@@ -12,9 +12,9 @@ from __future__ import annotations
 
 from functools import lru_cache
 
-from .resources import specs_dir
-from .spec import LabSpec, load_spec
-from .submission import Submission, observation_keys, result_keys
+from labcheck.base.resources import specs_dir
+from labcheck.model.spec import LabSpec, load_spec
+from labcheck.reading.submission import Submission, observation_keys, result_keys
 
 __all__ = ["wrong_lab_message"]
 

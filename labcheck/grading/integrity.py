@@ -31,7 +31,7 @@ from array import array
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 
-from .reductions.stats import terminal_digit_test
+from labcheck.reductions.stats import terminal_digit_test
 
 __all__ = ["Evidence", "collect_evidence", "find_leads", "P_LEAD", "CAVEAT"]
 

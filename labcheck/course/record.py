@@ -1,6 +1,6 @@
 """A course record: the roster, the labs, every grading run, the instructor's adjustments and their history.
 
-Run layer: may import the reading, grading and reporting layers and :mod:`labcheck.batch`; prints nothing
+Run layer: may import the reading, grading and reporting layers and :mod:`labcheck.run.batch`; prints nothing
 (the CLI prints).  The record is one SQLite file, ``course.sqlite``, in the course folder, beside the run
 folders ``labs/<lab>/run-NNN/`` that hold each run's usual outputs (docs/course.md).
 
@@ -26,8 +26,8 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from .adjust import apply_adjustments, step_state
-from .identity import Roster, RosterEntry
+from labcheck.grading.adjust import apply_adjustments, step_state
+from labcheck.reading.identity import Roster, RosterEntry
 
 __all__ = ["DB_NAME", "SCHEMA_VERSION", "Course", "CourseError", "LabStatus"]
 
@@ -142,7 +142,7 @@ class CourseError(Exception):
 
 
 def _now() -> str:
-    from .outputs import run_time
+    from labcheck.report.outputs import run_time
 
     return run_time().isoformat(timespec="seconds")
 
@@ -320,8 +320,8 @@ class Course:
         go into the database in one transaction.  A kill before that commit leaves an unrecorded run
         folder, which the next run passes over (it takes the next number).
         """
-        from .batch import grade_section
-        from .ingest import Limits
+        from labcheck.run.batch import grade_section
+        from labcheck.reading.ingest import Limits
 
         if section is not None and section not in self.sections():
             raise CourseError(f"no section {section!r} in this course; the sections are "
@@ -533,7 +533,7 @@ class Course:
 
     # ------------------------------------------------------------ reading back
     def spec_of_run(self, run_id: int):
-        from .spec import parse_spec
+        from labcheck.model.spec import parse_spec
 
         row = self.conn.execute("SELECT s.* FROM specs s JOIN runs r ON r.spec_id = s.spec_id WHERE r.run_id = ?",
                                 (run_id,)).fetchone()
@@ -605,7 +605,7 @@ class Course:
         """The LMS grade file: one row per active roster student, one column per lab (docs/course.md,
         "Export").  Every text cell is neutralised; written to a ``.part`` file, then renamed.
         Returns (rows, labs written)."""
-        from .outputs import neutralise_cell
+        from labcheck.report.outputs import neutralise_cell
 
         path = Path(path)
         all_labs, rows = self.grades(as_percent=as_percent)
@@ -634,10 +634,10 @@ class Course:
         """Every graded student's current sheet (or those of ``students``), with today's adjustments, as
         ``<student id>.pdf`` in ``out``, and one zip of them.  Sheets are rendered here; the PDFs are laid out
         in ``jobs`` processes (WeasyPrint's layout is the slow part).  Returns (PDF names, the zip's path)."""
-        from .batch import sheet_file_name
-        from .outputs import run_time
-        from .pdf import html_to_pdf
-        from .render import Renderer
+        from labcheck.run.batch import sheet_file_name
+        from labcheck.report.outputs import run_time
+        from labcheck.report.pdf import html_to_pdf
+        from labcheck.report.render import Renderer
 
         self._lab(lab_id)
         out = Path(out)

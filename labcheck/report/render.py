@@ -14,11 +14,11 @@ import jinja2
 from markupsafe import Markup
 import numpy as np
 
-from . import __version__
-from .outputs import run_time
-from .resources import templates_dir
-from .spec import LabSpec
-from .units import format_fixed, from_si, to_si
+from labcheck import __version__
+from labcheck.report.outputs import run_time
+from labcheck.base.resources import templates_dir
+from labcheck.model.spec import LabSpec
+from labcheck.base.units import format_fixed, from_si, to_si
 
 __all__ = ["Renderer", "fmt_number", "VERDICT_WORDS"]
 
@@ -56,7 +56,7 @@ def fmt_number(value, digits: int = 5) -> str:
     return f"{v:,.{decimals}f}".replace(",", "\u2009")
 
 
-# How a file's student was found, when it was not an exact id match (labcheck/identity.py).
+# How a file's student was found, when it was not an exact id match (labcheck/reading/identity.py).
 IDENTITY_WORDS = {
     "normalised": "the id matched once case, spaces or leading zeros were set aside",
     "folder": "credited from the export's folder (the sheet's id is missing or not on the roster)",
@@ -190,7 +190,7 @@ class Renderer:
     # --------------------------------------------------------------- section
     def integrity(self, leads: list[dict], n_submissions: int) -> str:
         """The instructor's integrity page: leads with their evidence, never shown to students."""
-        from .integrity import CAVEAT, P_LEAD
+        from labcheck.grading.integrity import CAVEAT, P_LEAD
 
         kinds = {"shared_readings": "identical readings in two submissions",
                  "digit_preference": "preferred last digits",

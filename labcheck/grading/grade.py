@@ -32,20 +32,20 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .chain import UNBOUNDED, Chain, evaluate_chain, evaluate_step, finite
-from .uncertainty import propagate
-from .reductions.stats import grubbs_test, scatter_test
-from .methods import Method, Step
-from .spec import LabSpec, StepRule
-from .submission import Reading, Submission
-from .units import (UNITS, canonical_unit, dms_seconds_decimals, format_dms, format_fixed, format_value, from_si,
+from labcheck.model.chain import UNBOUNDED, Chain, evaluate_chain, evaluate_step, finite
+from labcheck.model.uncertainty import propagate
+from labcheck.reductions.stats import grubbs_test, scatter_test
+from labcheck.methods import Method, Step
+from labcheck.model.spec import LabSpec, StepRule
+from labcheck.reading.submission import Reading, Submission
+from labcheck.base.units import (UNITS, canonical_unit, dms_seconds_decimals, format_dms, format_fixed, format_value, from_si,
                     half_unit_si, parse_quantity, to_si)
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record",
            "GENERIC_SLIPS", "safe_id", "StepTrace", "judge"]
 
 
-from .methods.slips import _FT, GENERIC_SLIPS  # noqa: E402 (the catalogue, which the diagnosis tries)
+from labcheck.methods.slips import _FT, GENERIC_SLIPS  # noqa: E402 (the catalogue, which the diagnosis tries)
 
 
 OUTLIER_INSTRUMENT_SIGMAS = 3.0  # an outlier must also lie beyond 3σ of the instrument (common practice)

@@ -15,9 +15,9 @@ import re
 import statistics
 from dataclasses import dataclass
 
-from .grading import grade_submission, judge
-from .spec import AccuracyRule, LabSpec, Tolerance
-from .units import parse_quantity, format_value
+from labcheck.grading.grade import grade_submission, judge
+from labcheck.model.spec import AccuracyRule, LabSpec, Tolerance
+from labcheck.base.units import parse_quantity, format_value
 
 __all__ = ["MULTIPLIERS", "TuneReport", "tune", "tuned_spec_text"]
 
@@ -57,7 +57,7 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
     """Sweep every step's tolerance and the accuracy bands over ``submissions`` (normalised).
 
     Each submission is graded once; every sweep point then re-judges the stored values (the grader's own
-    :func:`~labcheck.grading.judge`), step by step in method order so that "carried" follows the earlier
+    :func:`~labcheck.grading.grade.judge`), step by step in method order so that "carried" follows the earlier
     verdicts: the figures equal those of a full regrade at each point (tests/test_tune.py), without
     regrading, rendering or quality tests per point.
     """

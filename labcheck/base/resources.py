@@ -13,7 +13,7 @@ from pathlib import Path
 
 __all__ = ["specs_dir", "templates_dir", "shipped_spec"]
 
-_REPO = Path(__file__).resolve().parent.parent
+_REPO = Path(__file__).resolve().parents[2]  # labcheck/base/resources.py -> the checkout
 
 
 def _package_dir(package: str, fallback: str) -> Path:

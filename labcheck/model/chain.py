@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .methods import Method, Step
+from labcheck.methods import Method, Step
 
 __all__ = ["Chain", "evaluate_chain", "evaluate_step", "evaluate_downstream", "downstream", "finite", "UNBOUNDED"]
 

@@ -1,0 +1,4 @@
+"""The course record (``record``): roster, labs, every run, adjustments and their history in SQLite.
+
+May import every layer below, the run layer included.
+"""
