@@ -49,3 +49,17 @@ def test_course_doc_matches_the_code(tmp_path):
         assert row is not None, f"docs/course.md does not describe table {table}"
         for column in (r[1] for r in course.conn.execute(f"PRAGMA table_info({table})")):
             assert f"`{column}`" in row, f"docs/course.md: column {table}.{column} is not described"
+
+
+def test_glossary_is_generated_from_the_declarations():
+    """docs/glossary.md is what the method declarations and units say now (regenerate it when this fails:
+    python -m labcheck.report.glossary > docs/glossary.md)."""
+    from labcheck.report.glossary import glossary_markdown
+
+    text = glossary_markdown()
+    assert (ROOT / "docs" / "glossary.md").read_text(encoding="utf-8") == text, "docs/glossary.md is stale"
+    for method in METHODS.values():
+        for o in method.observations:
+            assert f"| `{o.name}` |" in text
+        for step in method.steps:
+            assert f"| `{step.id}` |" in text
