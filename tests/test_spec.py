@@ -5,7 +5,8 @@ from pathlib import Path
 import pytest
 
 from labcheck.base.resources import shipped_spec, specs_dir
-from labcheck.model.spec import SCHEMA_DOC, SpecError, load_spec, parse_spec
+from labcheck.model.schema import key_names
+from labcheck.model.spec import SpecError, load_spec, parse_spec
 
 DOCS = Path(__file__).resolve().parent.parent / "docs" / "spec.md"
 
@@ -111,7 +112,7 @@ def test_missing_file():
 
 def test_docs_cover_every_top_level_key():
     text = DOCS.read_text(encoding="utf-8")
-    for key in SCHEMA_DOC:
+    for key in key_names():
         assert f"`{key}`" in text, f"docs/spec.md does not document {key}"
 
 
@@ -164,3 +165,44 @@ def test_malformed_spec_on_the_command_line_is_exit_2_without_traceback(tmp_path
     assert main(["spec", "check", str(f)]) == 2
     err = capsys.readouterr().err
     assert "methods[0]" in err and "Traceback" not in err
+
+
+def test_spec_reference_tables_are_generated_from_the_schema():
+    """docs/spec.md's key tables are those labcheck/model/schema.py makes (regenerate with
+    python -m labcheck.model.schema --docs docs/spec.md)."""
+    from labcheck.model.schema import markdown_tables, render_docs
+
+    text = DOCS.read_text(encoding="utf-8")
+    for block in markdown_tables():
+        assert f"<!-- schema:{block} -->" in text, block
+    assert render_docs(text) == text, "docs/spec.md is stale"
+
+
+def test_the_shipped_json_schema_is_current_and_judges_specs_as_labcheck_does():
+    """lab_specs/spec.schema.json is generated from the schema; jsonschema (an independent validator) accepts
+    every shipped spec and refuses the malformed ones that labcheck refuses for a declared limit."""
+    import json
+    import tomllib
+
+    import jsonschema
+
+    from labcheck.base.resources import specs_dir
+    from labcheck.model.schema import json_schema, json_schema_text
+
+    shipped = specs_dir() / "spec.schema.json"
+    assert shipped.read_text(encoding="utf-8") == json_schema_text(), "regenerate: python -m labcheck.model.schema --json"
+    schema = json.loads(shipped.read_text(encoding="utf-8"))
+    jsonschema.Draft202012Validator.check_schema(schema)
+    validator = jsonschema.Draft202012Validator(json_schema())
+    for f in sorted(specs_dir().glob("*.toml")):
+        errors = list(validator.iter_errors(tomllib.loads(f.read_text(encoding="utf-8"))))
+        assert not errors, (f.name, [e.message for e in errors])
+    for edit in [("min_readings = 5", "min_readings = 1000"), ('id = "horizon_dip"', 'id = "../x"'),
+                 ("[steps.dip_mean]\npoints = 2", "[steps.dip_mean]\npoints = -2"),
+                 ('title = ', 'page_size = "A5"\ntitle = '), ("[constants]", "[constantz]\n[constants]"),
+                 ('[steps.dip_mean]\npoints = 2\ntolerance = "0.02 arcmin"', '[steps.dip_mean]\npoints = 2\ntolerance = "0.02 arcmin"\nweight = 1')]:
+        text = base().replace(*edit, 1)
+        assert text != base(), edit
+        assert list(validator.iter_errors(tomllib.loads(text))), f"the JSON Schema accepts {edit[1]!r}"
+        with pytest.raises(SpecError):
+            parse_spec(text.encode(), "edited.toml")

@@ -31,7 +31,7 @@ EXAMPLES = {
     "grade": "example:\n  labcheck grade horizon_dip submissions.zip --roster roster.csv --out graded/",
     "check": "example:\n  labcheck check horizon_dip group07.csv",
     "template": "examples:\n  labcheck template horizon_dip --out dip_lab.csv\n  labcheck template lab_specs/horizon_dip.toml --out dip_lab.xlsx",
-    "spec": "examples:\n  labcheck spec check my_lab.toml\n  labcheck spec list",
+    "spec": "examples:\n  labcheck spec check my_lab.toml\n  labcheck spec list\n  labcheck spec schema",
     "demo": "example:\n  labcheck demo --out ~/labcheck-demo",
     "diff": "example:\n  labcheck diff graded-monday/ graded-retuned/",
     "tune": "examples:\n  labcheck tune horizon_dip submissions.zip\n  labcheck tune horizon_dip submissions.zip --write horizon_dip_tuned.toml",
@@ -214,6 +214,12 @@ def cmd_spec(args) -> int:
             spec = load_spec(f)
             print(f"{f.stem:<20} {spec.title}")
         print(f"(shipped in {specs_dir()}; copy one to make your own)")
+        return 0
+    if args.action == "schema":
+        path = specs_dir() / "spec.schema.json"
+        print(path)
+        print("(a JSON Schema of the lab spec: start a spec with the line '#:schema <that path>' and an editor that "
+              "checks TOML against JSON Schemas checks it as you type)", file=sys.stderr)
         return 0
     if not args.file:
         raise InputError("labcheck spec check needs a FILE")
@@ -487,7 +493,8 @@ def build_parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("spec", help="check a lab spec, or list the shipped ones", epilog=EXAMPLES["spec"],
                        formatter_class=fmt, description="Validate a lab spec file and explain any error, or list the shipped specs.")
-    p.add_argument("action", choices=("check", "list"))
+    p.add_argument("action", choices=("check", "list", "schema"),
+                   help="check FILE; list the shipped specs; schema: where the spec's JSON Schema is")
     p.add_argument("file", nargs="?", metavar="FILE")
     p.set_defaults(func=cmd_spec)
 

@@ -1,8 +1,9 @@
 """Lab spec files (TOML): load, validate, and resolve against the methods.
 
 A spec error names the file, the key path and what was expected; every
-error in a file is reported at once.  See ``docs/spec.md`` for the schema,
-which :data:`SCHEMA_DOC` below mirrors (a test keeps the two in step).
+error in a file is reported at once.  The keys, their types, defaults and limits are declared once
+in :mod:`labcheck.model.schema` (which also makes docs/spec.md's tables and the JSON Schema); the
+checks that tie a spec to its methods (units of a step's kind, constants the methods use) are here.
 """
 
 from __future__ import annotations
@@ -16,30 +17,9 @@ from pathlib import Path
 
 from labcheck.methods import METHODS, PLUGIN_ERRORS, Method, Step, load_plugins
 from labcheck.base.units import UnitError, canonical_unit, parse_quantity, to_si, UNITS
+from labcheck.model.schema import Key, expected_words, key_at, key_names
 
 __all__ = ["SpecError", "QualityRule", "Tolerance", "StepRule", "AccuracyRule", "ObservationRule", "LabSpec", "load_spec", "parse_spec"]
-
-# Each top-level key, what it holds, and whether it is required.  docs/spec.md
-# documents the same keys (tests/test_spec.py checks every key is there).
-SCHEMA_DOC = {
-    "id": "lab id, snake_case (required)",
-    "title": "title shown on sheets (required)",
-    "methods": "list of method ids, in the order shown (required)",
-    "methods_required": '"any" (grade the methods a group attempted) or "all" (default "any")',
-    "safety": "the lab's safety note, shown on every sheet (required)",
-    "constants": "table of constants with units (required: those the methods use)",
-    "observations": "per observation: unit, sigma, min_readings (optional)",
-    "steps": "per step key: points, tolerance, unit (required for every step)",
-    "grading": "carried_fraction, pass_fraction (optional)",
-    "accuracy": "points, full_within, zero_beyond (optional: without it no accuracy is judged)",
-    "mistakes": "per mistake id: replacement explanation text (optional)",
-    "uncertainty": "standard deviations of constants, e.g. the day's refraction coefficient (optional)",
-    "quality": "field-data quality: points, alpha, outlier_alpha, precision_standard (optional)",
-    "integrity": "shared: observation items all groups legitimately share, left out of copy leads (optional)",
-    "course": "course name shown on sheets (optional)",
-    "page_size": 'paper for printed sheets and PDFs: "A4" or "letter" (default "A4")',
-}
-
 
 class SpecError(Exception):
     """A lab spec is malformed.  ``problems`` lists (key path, message)."""
@@ -210,7 +190,7 @@ _TOLERANCE_LIMITS_SI = {
     "percent": (100.0, "100 pp"),
     "ratio": (1.0e9, "1e9"),
 }
-MAX_MIN_READINGS = 100
+MAX_MIN_READINGS = int(key_at("observations.*.min_readings").maximum)
 _LAB_ID_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
 
 
@@ -276,6 +256,58 @@ class _Checker:
         return value
 
 
+def _declared_choice(c: "_Checker", table: dict, name: str, path: str = "") -> str:
+    key = key_at(f"{path}.{name}" if path else name)
+    value = c.get(table, name, path, str, required=key.required, default=key.default)
+    if value not in key.choices:
+        c.add(f"{path}.{name}" if path else name,
+              f"expected {' or '.join(repr(x).replace(chr(39), chr(34)) for x in key.choices)}, got {value!r}")
+        return key.default
+    return value
+
+
+def _range_words(key: Key) -> str:
+    """What a number's declared limits allow, in words ("a fraction from 0 to 1", "0 or more points")."""
+    lo, hi = key.minimum, key.maximum
+    if lo is not None and hi is not None:
+        noun = ("a whole number" if key.type == "integer" else "a probability" if key.name.endswith("alpha")
+                else "a fraction" if (lo, hi) == (0, 1) else "a number")
+        return f"{noun} {'between' if key.exclusive else 'from'} {lo:g} {'and' if key.exclusive else 'to'} {hi:g}"
+    if lo is not None:
+        if key.exclusive:
+            return f"a number above {lo:g}"
+        return f"{lo:g} or more" + (" points" if "points" in key.name else "")
+    return f"at most {hi:g}"
+
+
+def _declared_number(c: "_Checker", table: dict, schema_path: str, name: str, path: str | None = None):
+    """A number key read by its declaration at ``schema_path.name``: type, default, and limits (a value out of
+    its limits is reported and the default used).  ``path`` is the table's key path in messages."""
+    key = key_at(f"{schema_path}.{name}" if schema_path else name)
+    path = schema_path if path is None else path
+    if name not in table:
+        return key.default
+    types = int if key.type == "integer" else (int, float)
+    value = c.get(table, name, path, types, required=key.required, default=key.default,
+                  what=f"{'a whole number' if key.type == 'integer' else 'a number'} ({_range_words(key)})")
+    if value is None:
+        return key.default
+    lo, hi = key.minimum, key.maximum
+    below = lo is not None and (value <= lo if key.exclusive else value < lo)
+    above = hi is not None and (value >= hi if key.exclusive else value > hi)
+    if below or above:
+        c.add(f"{path}.{name}" if path else name, f"expected {_range_words(key)}, got {value}")
+        return key.default
+    return value
+
+
+def _unknown_keys(c: "_Checker", table: dict, schema_path: str, path: str) -> None:
+    names = key_names(schema_path)
+    for k in table:
+        if k not in names:
+            c.add(f"{path}.{k}", f"unknown key; expected {expected_words(schema_path)}")
+
+
 def _as_tuple(t):
     return t if isinstance(t, tuple) else (t,)
 
@@ -306,7 +338,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         raise SpecError(path, [("", f"not valid TOML: {exc}")]) from None
 
     c = _Checker()
-    known_top = set(SCHEMA_DOC)
+    known_top = set(key_names())
     for key in raw:
         if key not in known_top:
             c.add(key, f"unknown key; expected one of {', '.join(sorted(known_top))}")
@@ -317,11 +349,8 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                     f"64 characters), got {lab_id!r}")
         lab_id = ""
     title = c.get(raw, "title", "", str, what="a title string") or ""
-    course = c.get(raw, "course", "", str, required=False, default="") or ""
-    page_size = c.get(raw, "page_size", "", str, required=False, default="A4") or "A4"
-    if page_size not in ("A4", "letter"):
-        c.add("page_size", f'expected "A4" or "letter", got {page_size!r}')
-        page_size = "A4"
+    course = c.get(raw, "course", "", str, required=False, default=key_at("course").default) or ""
+    page_size = _declared_choice(c, raw, "page_size")
     safety = c.get(raw, "safety", "", str, what="the lab's safety note as a string") or ""
     if "safety" in raw and isinstance(raw["safety"], str) and not raw["safety"].strip():
         c.add("safety", "must not be empty: every sheet carries the lab's safety note")
@@ -342,10 +371,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
     if "methods" in raw and isinstance(raw["methods"], list) and not raw["methods"]:
         c.add("methods", "expected at least one method")
 
-    required = c.get(raw, "methods_required", "", str, required=False, default="any")
-    if required not in ("any", "all"):
-        c.add("methods_required", f'expected "any" or "all", got {required!r}')
-        required = "any"
+    required = _declared_choice(c, raw, "methods_required")
 
     # Constants: every constant the methods use (and their references, when accuracy is
     # judged), with a unit of the right kind; a constant with a documented default may be left out.
@@ -393,9 +419,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         if not isinstance(table, dict):
             c.add(kp, f"expected a table with unit, sigma, min_readings; got {table!r}")
             table = {}
-        for key in table:
-            if key not in ("unit", "sigma", "min_readings"):
-                c.add(f"{kp}.{key}", "unknown key; expected unit, sigma or min_readings")
+        _unknown_keys(c, table, "observations.*", kp)
         unit = c.get(table, "unit", kp, str, required=False, default=o.unit)
         unit = canonical_unit(unit)
         if o.kind in UNITS and unit not in UNITS[o.kind] and not (o.kind == "angle" and unit == "dms"):
@@ -410,10 +434,7 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                     c.add(f"{kp}.sigma", f"expected a positive standard deviation, got {sigma_text!r}")
             except UnitError as exc:
                 c.add(f"{kp}.sigma", str(exc))
-        min_readings = c.get(table, "min_readings", kp, int, required=False, default=1)
-        if isinstance(min_readings, int) and not 1 <= min_readings <= MAX_MIN_READINGS:
-            c.add(f"{kp}.min_readings", f"expected a whole number from 1 to {MAX_MIN_READINGS}, got {min_readings}")
-            min_readings = 1
+        min_readings = _declared_number(c, table, "observations.*", "min_readings", kp)
         observations[name] = ObservationRule(name, unit, sigma_si, sigma_text, min_readings)
 
     # Steps: points and tolerance for every step of every method.
@@ -435,12 +456,10 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
             if not isinstance(table, dict):
                 c.add(kp, f"expected a table with points and tolerance, got {table!r}")
                 continue
-            for k in table:
-                if k not in ("points", "tolerance", "unit"):
-                    c.add(f"{kp}.{k}", "unknown key; expected points, tolerance or unit")
+            _unknown_keys(c, table, "steps.*", kp)
             points = c.get(table, "points", kp, (int, float), what="a number of points (0 or more)")
-            if isinstance(points, (int, float)) and points < 0:
-                c.add(f"{kp}.points", f"expected 0 or more points, got {points}")
+            if isinstance(points, (int, float)) and points < key_at("steps.*.points").minimum:
+                c.add(f"{kp}.points", f"expected {_range_words(key_at('steps.*.points'))}, got {points}")
             tol_text = c.get(table, "tolerance", kp, str, what='a tolerance such as "0.5 %" or "0.01 km"')
             tol = None
             if tol_text is not None:
@@ -456,15 +475,9 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
                 steps[key] = StepRule(key, m, s, float(points), tol, unit)
 
     grading = c.get(raw, "grading", "", dict, required=False, default={}) or {}
-    for k in grading:
-        if k not in ("carried_fraction", "pass_fraction"):
-            c.add(f"grading.{k}", "unknown key; expected carried_fraction or pass_fraction")
-    carried = c.get(grading, "carried_fraction", "grading", (int, float), required=False, default=1.0)
-    if not 0.0 <= carried <= 1.0:
-        c.add("grading.carried_fraction", f"expected a fraction from 0 to 1, got {carried}")
-    pass_fraction = c.get(grading, "pass_fraction", "grading", (int, float), required=False, default=0.6)
-    if not 0.0 <= pass_fraction <= 1.0:
-        c.add("grading.pass_fraction", f"expected a fraction from 0 to 1, got {pass_fraction}")
+    _unknown_keys(c, grading, "grading", "grading")
+    carried = _declared_number(c, grading, "grading", "carried_fraction")
+    pass_fraction = _declared_number(c, grading, "grading", "pass_fraction")
 
     accuracy = None
     if "accuracy" in raw:
@@ -475,19 +488,21 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         accuracy = _parse_accuracy(acc_raw, c, kinds.pop() if len(kinds) == 1 else "length")
 
     unc_raw = dict(c.get(raw, "uncertainty", "", dict, required=False, default={}) or {})
-    reported = unc_raw.pop("reported", [])
-    reported_points = unc_raw.pop("reported_points", 1)
-    within_factor = unc_raw.pop("within_factor", 2.0)
+    reported = unc_raw.pop("reported", list(key_at("uncertainty.reported").default))
+    reported_points = unc_raw.pop("reported_points", key_at("uncertainty.reported_points").default)
+    within_factor = unc_raw.pop("within_factor", key_at("uncertainty.within_factor").default)
     if not isinstance(reported, list) or any(k not in expected_keys for k in reported if isinstance(k, str)) \
             or not all(isinstance(k, str) for k in reported):
         c.add("uncertainty.reported", f"expected a list of step keys from: {', '.join(expected_keys)}; got {reported!r}")
         reported = []
+    for name, value in (("reported_points", reported_points), ("within_factor", within_factor)):
+        key = key_at(f"uncertainty.{name}")
+        if not _finite_number(value) or (value <= key.minimum if key.exclusive else value < key.minimum):
+            c.add(f"uncertainty.{name}", f"expected {_range_words(key)}, got {value!r}")
     if not _finite_number(reported_points) or reported_points < 0:
-        c.add("uncertainty.reported_points", f"expected 0 or more points, got {reported_points!r}")
         reported_points = 0
-    if not _finite_number(within_factor) or within_factor <= 1:
-        c.add("uncertainty.within_factor", f"expected a number above 1, got {within_factor!r}")
-        within_factor = 2.0
+    if not _finite_number(within_factor) or within_factor <= key_at("uncertainty.within_factor").minimum:
+        within_factor = key_at("uncertainty.within_factor").default
     constant_sigma: dict[str, float] = {}
     for name, text in unc_raw.items():
         if name not in declared:
@@ -506,26 +521,17 @@ def parse_spec(data: bytes, path: str = "<spec>") -> LabSpec:
         c.add("accuracy", "bands in sigma need standard deviations: give [observations.<name>] sigma for the instruments")
 
     q_raw = c.get(raw, "quality", "", dict, required=False, default={}) or {}
-    for k in q_raw:
-        if k not in ("points", "alpha", "outlier_alpha", "precision_standard"):
-            c.add(f"quality.{k}", "unknown key; expected points, alpha, outlier_alpha or precision_standard")
-    q_points = c.get(q_raw, "points", "quality", (int, float), required=False, default=0)
-    q_alpha = c.get(q_raw, "alpha", "quality", float, required=False, default=0.01, what="a probability such as 0.01")
-    q_out = c.get(q_raw, "outlier_alpha", "quality", float, required=False, default=0.05, what="a probability such as 0.05")
-    q_prec = c.get(q_raw, "precision_standard", "quality", (int, float), required=False, default=None,
-                   what="N of the 1:N standard, e.g. 5000")
-    for key, v in (("alpha", q_alpha), ("outlier_alpha", q_out)):
-        if not 0 < v < 0.5:
-            c.add(f"quality.{key}", f"expected a probability between 0 and 0.5, got {v}")
-    if q_points < 0:
-        c.add("quality.points", f"expected 0 or more points, got {q_points}")
+    _unknown_keys(c, q_raw, "quality", "quality")
+    q_points = _declared_number(c, q_raw, "quality", "points")
+    q_alpha = _declared_number(c, q_raw, "quality", "alpha")
+    q_out = _declared_number(c, q_raw, "quality", "outlier_alpha")
+    q_prec = _declared_number(c, q_raw, "quality", "precision_standard")
     quality_rule = QualityRule(float(q_points), float(q_alpha), float(q_out), float(q_prec) if q_prec else None)
 
     integ = c.get(raw, "integrity", "", dict, required=False, default={}) or {}
-    for k in integ:
-        if k != "shared":
-            c.add(f"integrity.{k}", "unknown key; expected shared")
-    shared = c.get(integ, "shared", "integrity", list, required=False, default=[], what="a list of observation items")
+    _unknown_keys(c, integ, "integrity", "integrity")
+    shared = c.get(integ, "shared", "integrity", list, required=False, default=list(key_at("integrity.shared").default),
+                   what="a list of observation items")
     for i, item in enumerate(shared):
         if not isinstance(item, str):
             c.add(f"integrity.shared[{i}]", f"expected an observation item name, got {item!r}")
@@ -595,12 +601,10 @@ def _parse_band(text, path: str, c: _Checker, kind: str = "length") -> tuple[flo
 
 
 def _parse_accuracy(acc: dict, c: _Checker, kind: str = "length") -> AccuracyRule:
-    for k in acc:
-        if k not in ("points", "full_within", "zero_beyond"):
-            c.add(f"accuracy.{k}", "unknown key; expected points, full_within or zero_beyond")
+    _unknown_keys(c, acc, "accuracy", "accuracy")
     points = c.get(acc, "points", "accuracy", (int, float), what="a number of points (0 or more)", default=0)
-    if points is not None and points < 0:
-        c.add("accuracy.points", f"expected 0 or more points, got {points}")
+    if points is not None and points < key_at("accuracy.points").minimum:
+        c.add("accuracy.points", f"expected {_range_words(key_at('accuracy.points'))}, got {points}")
         points = 0
     full = _parse_band(acc.get("full_within"), "accuracy.full_within", c, kind) if "full_within" in acc else None
     zero = _parse_band(acc.get("zero_beyond"), "accuracy.zero_beyond", c, kind) if "zero_beyond" in acc else None
