@@ -46,7 +46,7 @@ def test_tune_writes_only_when_asked(tmp_path, capsys, spec):
 
 def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
     # Issue 9: "0.02 arcmin ×0.25" instead of the value, and methods counted where students are meant.
-    from labcheck.cli.main import format_tune_report
+    from labcheck.report.text import format_tune_report
     from labcheck.grading.tune import _scaled
 
     assert _scaled(spec.steps["dip_mean"].tolerance, 0.25).text == "0.005 arcmin"

@@ -232,7 +232,7 @@ def cmd_feedback(args) -> int:
 
 
 def cmd_history(args) -> int:
-    from labcheck.cli.main import format_diff
+    from labcheck.report.text import format_diff
     from labcheck.grading.compare import diff_runs, load_results
     from labcheck.course.record import CourseError
 

@@ -94,46 +94,16 @@ def cmd_grade(args) -> int:
 
 
 def _print_summary(run, spec: "LabSpec", out: Path, keep: str = "latest") -> None:
+    from labcheck.report.text import run_summary_lines
     from labcheck.run.batch import ERROR_LOG
 
-    c = _Colour(sys.stdout)
-    print(f"{spec.title}")
-    line = f"  graded {run.n_graded} of {run.n_files} files"
-    print(c(line, "32") if run.n_graded == run.n_files else line)
-    if run.mean_percent is not None:
-        print(f"  mean score {run.mean_percent:.0f} %; {run.n_pass} of {run.n_graded} at or above the pass mark ({spec.pass_fraction:.0%})")
-    if run.n_unreadable:
-        print(c(f"  {run.n_unreadable} unreadable file(s): reasons in section.html and results.json", "33"))
-    if run.n_wrong_lab:
-        print(c(f"  {run.n_wrong_lab} file(s) made from another lab's template: listed in section.html", "33"))
-    if run.n_missing:
-        print(c(f"  {run.n_missing} student(s) on the roster with no submission", "33"))
-    if run.n_unmatched:
-        print(c(f"  {run.n_unmatched} submission(s) whose student_id is not on the roster", "33"))
-    if run.n_superseded:
-        print(c(f"  {run.n_superseded} file(s) not counted: the same student sent another, kept by the "
-                f"'{keep}' policy (listed in section.html)", "33"))
-    if run.n_reconciled:
-        print(c(f"  {run.n_reconciled} file(s) matched to the roster other than by an exact id: review them "
-                "in section.html", "33"))
-    if run.n_skipped:
-        print(f"  {run.n_skipped} clutter file(s) passed over (listed in results.json)")
-    if run.internal_errors:
-        print(c(f"  labcheck itself failed on {len(run.internal_errors)} file(s) (status 'error'): "
-                f"tracebacks in {out / ERROR_LOG}; please report them", "31"))
-    if run.n_leads:
-        print(c(f"  {run.n_leads} integrity lead(s) for your review (instructor only): {out / 'integrity.html'}", "33"))
-    print(f"  section summary: {out / 'section.html'}")
-    print(f"  feedback sheets: {out / 'feedback'}{os.sep}")
-    print(f"  gradebook:       {out / 'gradebook.csv'}")
-    print(f"  all results:     {out / 'results.json'}")
-    print("  Grades are advisory: review them before they count.")
+    print("\n".join(run_summary_lines(run, spec, out, keep, _Colour(sys.stdout), ERROR_LOG)))
 
 
 def cmd_check(args) -> int:
-    from labcheck.grading.grade import grade_submission
-    from labcheck.reading.ingest import InputError, Limits, read_rows
-    from labcheck.reading.submission import normalise
+    from labcheck.reading.ingest import InputError, Limits
+    from labcheck.report.text import check_lines
+    from labcheck.run.check import check_bytes
 
     spec = _resolve_spec(args.spec)
     p = Path(args.file)
@@ -143,49 +113,14 @@ def cmd_check(args) -> int:
     if p.stat().st_size > limits.max_file_bytes:
         print(f"{p.name}: unreadable: file too large", file=sys.stderr)
         return 1
-    raw = read_rows(p.read_bytes(), p.name, limits)
-    if raw.error:
-        print(f"{p.name}: unreadable: {raw.error}")
+    checked = check_bytes(spec, p.read_bytes(), p.name, limits)
+    if checked.status == "unreadable":
+        print(f"{p.name}: unreadable: {checked.message}")
         return EXIT_INCOMPLETE
-    sub = normalise(raw, spec)
-    from labcheck.grading.labmatch import wrong_lab_message
-
-    wrong = wrong_lab_message(sub, spec)
-    if wrong:
-        print(f"{p.name}: {wrong}")
+    if checked.status == "wrong_lab":
+        print(f"{p.name}: {checked.message}")
         return EXIT_INCOMPLETE
-    record = grade_submission(sub, spec)
-    c = _Colour(sys.stdout)
-    colours = {"correct": "32", "carried": "33", "wrong": "31", "missing": "90"}
-    print(f"{spec.title}: {p.name}  ({record['name'] or '?'}, {record['student_id'] or 'no student_id'})")
-    for f in record["reading"]:
-        where = f"  row {f['row']}: {f['item']} = {f['value']!r}: " if f["row"] is not None else "  "
-        print(f"{where}{f['message']}")
-    for f in record["flags"]:
-        print(c(f"  row {f['row']}: {f['item']} = {f['value']!r}: {f['message']}", "33"))
-    from labcheck.base.units import format_fixed
-
-    head = f"  {'step':<32} {'recomputed':>14} {'yours':>14}  {'verdict':<16} {'points':>7}"
-    print(head)
-    print("  " + "-" * (len(head) - 2))
-    for s in record["steps"]:
-        exp = format_fixed(s["expected"], s["decimals"], s["unit"])
-        rep = format_fixed(s["reported"], s["decimals"], s["unit"])
-        verdict = c(f"{s['verdict']:<16}", colours[s["verdict"]])
-        print(f"  {s['id']:<32} {exp:>14} {rep:>14}  {verdict} {s['points']:>3g}/{s['max_points']:<3g}")
-        if s["diagnosis"]:
-            print(f"      likely cause: {s['diagnosis']['label']}: {s['diagnosis']['text']}")
-        elif s["verdict"] in ("wrong", "carried"):
-            print(f"      {s['explanation']}")
-    for mid, acc in record["accuracy"].items():
-        print(f"  accuracy ({mid}): {acc['explanation']} {acc['points']:g}/{acc['max_points']:g}")
-    qs = record.get("quality_score")
-    if qs:
-        print(f"  field-data quality: {qs['points']:g}/{qs['max_points']:g} ({qs['passed']} of {qs['checks']} checks passed)")
-        for q in record["quality"]:
-            if q.get("check"):
-                print(f"      {'ok ' if q['ok'] else 'not'} {q['text']}")
-    print(f"  score {record['score']:g} / {record['max_score']:g} (advisory)")
+    print("\n".join(check_lines(checked.record, spec, p.name, _Colour(sys.stdout))))
     return 0
 
 
@@ -267,7 +202,10 @@ def cmd_demo(args) -> int:
                              f"got {got[0]} unreadable, {got[1]} missing, {got[2]} wrong-lab, {got[3]} labcheck failures")
             worst = max(worst, EXIT_LABCHECK_FAILED if run.n_errors else EXIT_INCOMPLETE)
         if section.lab == "horizon_dip":
-            _demo_tune_and_diff(spec, zip_path, roster, folder)
+            from labcheck.demo.tune import tune_and_diff
+
+            for line in tune_and_diff(spec, zip_path, roster, folder):
+                print(line)
     surprises += _demo_course(out, args)
     print(f"\nStart with {out / SECTIONS[0].folder / 'graded' / 'section.html'}")
     if surprises:
@@ -291,80 +229,8 @@ def _demo_course(out: Path, args) -> list[str]:
         demo = run_course_demo(out / COURSE_DEMO_FOLDER, jobs=args.jobs)
     except PdfError as exc:
         return [f"the course demo could not make PDFs: {exc}"]
-    c = demo.folder
-    print(f"  course record:   {c / 'course.sqlite'} (roster from {demo.roster.name}: LMS headings, ';' separators)")
-    for lab, runs in demo.runs.items():
-        print(f"  {lab}: run(s) {', '.join(map(str, runs))}; {demo.reconciled[lab]} identit(ies) reconciled "
-              "and listed for review")
-    print(f"  several files from one student: {demo.superseded} not counted (the latest attempt is)")
-    for r in demo.resolved:
-        print(f"  identity reviewed: {r}")
-    print(f"  identities still to review after the regrades: {demo.open_identities}")
-    for a in demo.adjustments:
-        print(f"  adjustment: {a}")
-    print(f"  regraded horizon_dip with {demo.retuned}: {demo.moved} student(s) moved; "
-          f"{demo.flagged} adjustment(s) flagged for review")
-    print(f"  review list:     labcheck course status {c}")
-    print(f"  regrade history: labcheck course history {c} horizon_dip")
-    print(f"  LMS grade file:  {demo.export}")
-    if demo.pdf_folder:
-        print(f"  PDF sheets:      {demo.pdf_folder} ({len(demo.pdf_pages)} PDFs of at most "
-              f"{max(demo.pdf_pages, default=0)} page(s), and one zip)")
-    problems = list(demo.problems)
-    expected = {"reconciled": {"horizon_dip": 2, "taped_baseline": 1}, "superseded": 1, "flagged": 1,
-                "open_identities": 0}
-    got = {"reconciled": demo.reconciled, "superseded": demo.superseded, "flagged": demo.flagged,
-           "open_identities": demo.open_identities}
-    if got != expected:
-        problems.append(f"course demo: expected {expected}, got {got}")
-    if demo.pdf_pages and max(demo.pdf_pages) > 2:
-        problems.append(f"course demo: a PDF sheet of {max(demo.pdf_pages)} pages (2 at most planned)")
-    return problems
-
-
-def format_tune_report(report, spec: "LabSpec") -> str:
-    """The tune report as text (for the terminal or a file)."""
-    out = [f"{spec.title}: {report.n} readable submissions; pass mark {spec.pass_fraction:.0%}",
-           "Each row: the tolerance tried, then how many students the step finds correct / carried / wrong, the mean "
-           "score and how many students pass. Nothing is changed."]
-    for key, rows in report.steps.items():
-        out.append(f"\n  {key}")
-        for r in rows:
-            mark = "  <- current" if r.multiplier == 1 else ""
-            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
-                       f"   mean {r.mean_percent:5.1f} %   pass {r.n_pass}/{report.n}{mark}")
-    if report.accuracy:
-        out.append(f"\n  accuracy ({spec.accuracy.text})")
-        for r in report.accuracy:
-            mark = "  <- current" if r.multiplier == 1 else ""
-            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} students with full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
-                       f"   pass {r.n_pass}/{report.n}{mark}")
-    if report.suggestion:
-        sg = report.suggestion
-        out.append(f"\n  The section's results carry a median propagated uncertainty of {sg['median_sigma_pct']:.2g} % "
-                   f"(1 sigma). Suggested bands: full_within = \"{sg['full_within']}\", zero_beyond = \"{sg['zero_beyond']}\" "
-                   "(2 and 4 sigma), or write them in sigmas: \"2 sigma\", \"4 sigma\".")
-    return "\n".join(out) + "\n"
-
-
-def format_diff(d, old_name: str, new_name: str) -> str:
-    """The diff of two runs as text."""
-    out = []
-    if d.old_lab != d.new_lab:
-        out.append(f"warning: the runs grade different labs ({d.old_lab} and {d.new_lab})")
-    out.append(f"{len(d.changed)} student(s) changed, {d.unchanged} unchanged"
-               + ("; the lab spec differs between the runs" if d.spec_changed else "; same lab spec"))
-    for ch in d.changed:
-        delta = f"{ch.delta:+g}" if ch.delta is not None else f"{ch.old_status} -> {ch.new_status}"
-        old = "—" if ch.old_score is None else f"{ch.old_score:g}"
-        new = "—" if ch.new_score is None else f"{ch.new_score:g}"
-        out.append(f"  {ch.key:<16} {ch.name:<24} {old:>7} -> {new:<7} ({delta})")
-        for st in ch.steps:
-            verdicts = f"{st['old_verdict']} -> {st['new_verdict']}" if st["old_verdict"] or st["new_verdict"] else ""
-            out.append(f"      {st['id']:<36} {st['old_points']} -> {st['new_points']} points  {verdicts}")
-    out += [f"  {key}: only in {old_name}" for key in d.only_old]
-    out += [f"  {key}: only in {new_name}" for key in d.only_new]
-    return "\n".join(out) + "\n"
+    print("\n".join(demo.summary_lines()))
+    return demo.surprises()
 
 
 def cmd_tune(args) -> int:
@@ -373,6 +239,7 @@ def cmd_tune(args) -> int:
     from labcheck.model.spec import load_spec
     from labcheck.reading.submission import normalise
     from labcheck.grading.tune import tune, tuned_spec_text
+    from labcheck.report.text import format_tune_report
 
     spec = _resolve_spec(args.spec)
     subs = [normalise(item, spec) for item in iter_submissions(args.inputs)
@@ -397,37 +264,12 @@ def cmd_tune(args) -> int:
 
 def cmd_diff(args) -> int:
     from labcheck.grading.compare import diff_runs, load_results
+    from labcheck.report.text import format_diff
 
     old, new = load_results(args.old), load_results(args.new)
     d = diff_runs(old, new)
     print(format_diff(d, args.old, args.new), end="")
     return 0
-
-
-def _demo_tune_and_diff(spec: "LabSpec", zip_path: Path, roster: Path, folder: Path) -> None:
-    """Show tune and diff on the dip section: a report, a tuned spec copy, a regrade, the diff."""
-    from labcheck.run.batch import grade_section
-    from labcheck.grading.compare import diff_runs, load_results
-    from labcheck.model.spec import load_spec
-    from labcheck.reading.ingest import RawSubmission, iter_submissions
-    from labcheck.reading.submission import normalise
-    from labcheck.grading.tune import tune, tuned_spec_text
-
-    subs = [normalise(i, spec) for i in iter_submissions([zip_path]) if isinstance(i, RawSubmission) and not i.error]
-    report = tune(spec, subs)
-    (folder / "tune_report.txt").write_text(format_tune_report(report, spec), encoding="utf-8")
-    if not report.suggestion:
-        return
-    tuned = folder / "horizon_dip_tuned.toml"
-    tuned.write_text(tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), report.suggestion["full_within"],
-                                     report.suggestion["zero_beyond"]), encoding="utf-8")
-    tuned_spec = load_spec(tuned)
-    grade_section(tuned_spec, [zip_path], folder / "graded-tuned", roster, force=True)
-    d = diff_runs(load_results(folder / "graded"), load_results(folder / "graded-tuned"))
-    (folder / "diff_report.txt").write_text(format_diff(d, "graded", "graded-tuned"), encoding="utf-8")
-    print(f"  tune: suggested accuracy bands {report.suggestion['full_within']} / {report.suggestion['zero_beyond']} "
-          f"(report: {folder / 'tune_report.txt'}); regraded with them into {folder / 'graded-tuned'}")
-    print(f"  diff: {len(d.changed)} student(s) would change ({folder / 'diff_report.txt'})")
 
 
 def _jobs(text: str) -> int:

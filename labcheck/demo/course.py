@@ -51,6 +51,40 @@ class CourseDemo:
     open_identities: int = -1  # identities still to review at the end
     problems: list[str] = field(default_factory=list)  # what did not go as planned
 
+    def summary_lines(self) -> list[str]:
+        """What the demo course did and where everything is."""
+        c = self.folder
+        lines = [f"  course record:   {c / 'course.sqlite'} (roster from {self.roster.name}: LMS headings, ';' separators)"]
+        for lab, runs in self.runs.items():
+            lines.append(f"  {lab}: run(s) {', '.join(map(str, runs))}; {self.reconciled[lab]} identit(ies) reconciled "
+                         "and listed for review")
+        lines.append(f"  several files from one student: {self.superseded} not counted (the latest attempt is)")
+        lines += [f"  identity reviewed: {r}" for r in self.resolved]
+        lines.append(f"  identities still to review after the regrades: {self.open_identities}")
+        lines += [f"  adjustment: {a}" for a in self.adjustments]
+        lines += [f"  regraded horizon_dip with {self.retuned}: {self.moved} student(s) moved; "
+                  f"{self.flagged} adjustment(s) flagged for review",
+                  f"  review list:     labcheck course status {c}",
+                  f"  regrade history: labcheck course history {c} horizon_dip",
+                  f"  LMS grade file:  {self.export}"]
+        if self.pdf_folder:
+            lines.append(f"  PDF sheets:      {self.pdf_folder} ({len(self.pdf_pages)} PDFs of at most "
+                         f"{max(self.pdf_pages, default=0)} page(s), and one zip)")
+        return lines
+
+    def surprises(self) -> list[str]:
+        """What did not go as planned (empty when the demo course did what it is meant to)."""
+        problems = list(self.problems)
+        expected = {"reconciled": {"horizon_dip": 2, "taped_baseline": 1}, "superseded": 1, "flagged": 1,
+                    "open_identities": 0}
+        got = {"reconciled": self.reconciled, "superseded": self.superseded, "flagged": self.flagged,
+               "open_identities": self.open_identities}
+        if got != expected:
+            problems.append(f"course demo: expected {expected}, got {got}")
+        if self.pdf_pages and max(self.pdf_pages) > 2:
+            problems.append(f"course demo: a PDF sheet of {max(self.pdf_pages)} pages (2 at most planned)")
+        return problems
+
 
 def _identity(rows, sid: str | None, name: str) -> list[tuple]:
     out = []
