@@ -360,3 +360,40 @@ def test_page_size_from_the_spec(tmp_path, inputs, dip_spec):
 
     with pytest.raises(SpecError, match='page_size.*expected "A4" or "letter"'):
         load_spec(bad)
+
+
+def test_sections_graded_apart_and_a_failed_grade_costs_nothing(tmp_path, inputs, dip_spec):
+    """Each section's run covers its own students: the other section is not 'missing' from it, and the export
+    takes each student's result from the run that covers them.  A grade with no usable input changes nothing."""
+    import zipfile
+
+    course = _new_course(tmp_path, inputs)
+    k1 = {s[0] for s in STUDENTS if s[2] == "K1"}
+    parts = {}
+    with zipfile.ZipFile(inputs.inputs["horizon_dip"]) as z:
+        for section in ("K1", "K2"):
+            ids = {s[0] for s in STUDENTS if s[2] == section}
+            parts[section] = tmp_path / f"{section}.zip"
+            with zipfile.ZipFile(parts[section], "w") as out:
+                for info in z.infolist():
+                    if any(i in info.filename for i in ids):
+                        out.writestr(info, z.read(info))
+    run1, _ = course.grade(dip_spec, [parts["K1"]], section="K1")
+    assert run1.n_missing == 0  # K2's students are not on K1's roster
+    assert set(course.current_results("horizon_dip")) == k1
+    course.grade(dip_spec, [parts["K2"]], section="K2")
+    current = course.current_results("horizon_dip")
+    assert set(current) == {s[0] for s in STUDENTS}
+    assert {current[s]["run_id"] for s in k1} == {1} and {current[s[0]]["run_id"] for s in STUDENTS
+                                                            if s[0] not in k1} == {2}
+    with pytest.raises(CourseError, match="no section 'K9'"):
+        course.grade(dip_spec, [parts["K1"]], section="K9")
+    empty = tmp_path / "empty"
+    empty.mkdir()
+    from labcheck.reading.ingest import InputError
+
+    before = course.conn.execute("SELECT count(*) FROM runs").fetchone()[0]
+    with pytest.raises(InputError, match="found no submission files"):
+        course.grade(dip_spec, [empty])
+    assert course.conn.execute("SELECT count(*) FROM runs").fetchone()[0] == before
+    assert sorted(p.name for p in (tmp_path / "course" / "labs" / "horizon_dip").iterdir()) == ["run-001", "run-002"]

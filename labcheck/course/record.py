@@ -335,12 +335,24 @@ class Course:
         lab_dir = self.folder / "labs" / spec.id
         lab_dir.mkdir(parents=True, exist_ok=True)
         # A run's folder is numbered by its run id; a folder a killed run left unrecorded keeps its number.
+        # The number is reserved by creating the folder (mkdir is atomic), so two runs at once never share one.
         used = [int(p.name[4:]) for p in (self.folder / "labs").glob("*/run-*") if p.name[4:].isdigit()]
-        recorded = self.conn.execute("SELECT max(run_id) FROM runs").fetchone()[0] or 0
-        number = max(used + [recorded]) + 1
-        out = lab_dir / f"run-{number:03d}"
-        run = grade_section(spec, inputs, out, roster, keep=keep, jobs=jobs, progress=progress,
-                            limits=limits or Limits(), adjustments=adjustments, assigned=assigned)
+        number = max(used + [self.conn.execute("SELECT max(run_id) FROM runs").fetchone()[0] or 0]) + 1
+        while True:
+            out = lab_dir / f"run-{number:03d}"
+            try:
+                out.mkdir()
+                break
+            except FileExistsError:
+                number += 1
+        recorded = number - 1
+        try:
+            run = grade_section(spec, inputs, out, roster, keep=keep, jobs=jobs, progress=progress,
+                                limits=limits or Limits(), adjustments=adjustments, assigned=assigned)
+        except BaseException:
+            if out.is_dir() and not any(out.iterdir()):
+                out.rmdir()  # nothing was graded (a bad input, an interrupt): the number is free again
+            raise
         results = json.loads((out / "results.json").read_text(encoding="utf-8"))
         integrity = json.loads((out / "integrity.json").read_text(encoding="utf-8"))
         leads: dict[str, int] = {}
