@@ -6,6 +6,7 @@ file must never be credited to a student silently.  The fuzzy name threshold is 
 """
 
 import csv
+import io
 import json
 import zipfile
 
@@ -14,6 +15,7 @@ from rapidfuzz import fuzz, utils
 
 from labcheck.run.batch import grade_section
 from labcheck.reading.identity import (NAME_MATCH_MARGIN, NAME_MATCH_THRESHOLD, Roster, RosterEntry, export_time,
+                                        normalise_id,
                                         reconcile)
 from labcheck.reading.ingest import InputError, read_roster
 from labcheck.base.resources import shipped_spec
@@ -246,3 +248,73 @@ def test_diff_compares_the_files_that_count(tmp_path, dip_spec):
     (change,) = d.changed
     assert (change.key, change.old_score, change.new_score) == ("s1005", good_score, worse_score)
     assert diff_runs(one, one).changed == []
+
+
+# ---------------------------------------------------------------- property tests (hypothesis)
+
+from hypothesis import HealthCheck, given, settings, strategies as st  # noqa: E402
+
+_IDS = st.from_regex(r"[A-Za-z]{0,2}[0-9]{1,6}(-[0-9]{1,3})?", fullmatch=True)
+_NAMES = st.text(alphabet=st.characters(whitelist_categories=("L",), max_codepoint=0x24F), min_size=1, max_size=12)
+ROSTER_PROPS = settings(max_examples=150, deadline=None, derandomize=True,
+                        suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+
+
+@ROSTER_PROPS
+@given(st.lists(st.tuples(_IDS, _NAMES, _NAMES), min_size=1, max_size=12, unique_by=lambda t: t[0].lower()),
+       st.sampled_from([",", ";", "\t", "|"]), st.sampled_from(["utf-8", "utf-8-sig", "utf-16", "cp1252"]),
+       st.sampled_from([("Student ID", None), ("SIS User ID", None), ("username", None), ("student_number", None)]),
+       st.booleans(), st.booleans())
+def test_any_roster_as_an_lms_writes_it_reads_back(tmp_path_factory, students, sep, encoding, id_heading,
+                                                  first_last, title_row):
+    """A roster written with any separator, encoding and common heading reads back to the same students, or is
+    refused with a message (never another exception)."""
+    ids = [normalise_id(s[0], all(x[0].isdigit() for x in students)) for s in students]
+    if len(set(ids)) < len(ids):
+        return  # ids equal once normalised: a different (tested) refusal
+    folder = tmp_path_factory.mktemp("roster")
+    rows = []
+    if title_row:
+        rows.append(["GEOD 2150 roster"])
+    if first_last:
+        rows.append([id_heading[0], "First Name", "Last Name"])
+        rows += [[i, f, l] for i, f, l in students]
+    else:
+        rows.append([id_heading[0], "Name"])
+        rows += [[i, f"{f} {l}"] for i, f, l in students]
+    buf = io.StringIO()
+    csv.writer(buf, delimiter=sep).writerows(rows)
+    try:
+        data = buf.getvalue().encode(encoding)
+    except UnicodeEncodeError:
+        return  # a name cp1252 cannot hold
+    path = folder / "roster.csv"
+    path.write_bytes(data)
+    roster = read_roster(path)
+    assert [(e.student_id, e.name) for e in roster.entries] == [(i, f"{f} {l}") for i, f, l in students]
+    for i, _, _ in students:  # every id finds its student written in capitals with spaces around it
+        assert roster.find(f"  {i.upper()} ").student_id == i
+
+
+@ROSTER_PROPS
+@given(st.binary(max_size=400))
+def test_any_bytes_as_a_roster_are_read_or_refused_plainly(tmp_path_factory, data):
+    path = tmp_path_factory.mktemp("roster") / "roster.csv"
+    path.write_bytes(b"Student ID;Name\n" + data)
+    try:
+        read_roster(path)
+    except InputError:
+        pass
+
+
+@ROSTER_PROPS
+@given(st.text(max_size=40), st.text(max_size=40), st.text(max_size=60))
+def test_reconcile_never_credits_silently(written, name, source):
+    """Whatever a sheet and a path say, a file is credited to a roster student only with a reason recorded,
+    unless its id matched exactly."""
+    record = {"student_id": written, "name": name, "flags": []}
+    reconcile(record, source, ALPHA)
+    if record["student_id"] in ALPHA and record["student_id"] != written:
+        assert record["identity"]["credited"] == record["student_id"] and record["flags"]
+    if record.get("identity"):
+        assert record["identity"]["how"] in ("normalised", "folder", "conflict", "name")

@@ -76,11 +76,16 @@ def cmd_grade(args) -> int:
     return run.exit_code
 
 
+MAX_ADJUSTMENT_FILE_BYTES = 5_000_000  # 50,000 adjustments of 100 characters
+
+
 def _adjust_rows(path: str) -> list[dict]:
     """The CSV form: columns student_id, lab, step (may be blank), points, reason."""
     from labcheck.reading.ingest import InputError
 
     try:
+        if Path(path).stat().st_size > MAX_ADJUSTMENT_FILE_BYTES:
+            raise InputError(f"{path}: over {MAX_ADJUSTMENT_FILE_BYTES // 1_000_000} MB; is it the adjustments file?")
         with open(path, newline="", encoding="utf-8-sig") as fh:
             sample = fh.read(4096)
             fh.seek(0)
