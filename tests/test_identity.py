@@ -192,6 +192,10 @@ def test_several_submissions_one_row_per_student(tmp_path, dip_spec, keep, kept)
     assert sup["student_id"] == "s1005" and sup["policy"] == keep
     assert sup["kept"].endswith(f"{kept}.csv") and not sup["submission"].endswith(f"{kept}.csv")
     assert run.n_superseded == 1 and results["run"]["counts"]["superseded"] == 1
+    assert (run.n_graded, run.n_counted) == (3, 2)  # the pass count and the mean are over the files that count
+    from labcheck.report.text import run_summary_lines
+
+    assert f"{run.n_pass} of 2 at or above the pass mark" in "\n".join(run_summary_lines(run, dip_spec, tmp_path))
     assert len(results["submissions"]) == 3  # nothing lost: every file's record is still there
     assert run.n_missing == 0
 

@@ -29,7 +29,7 @@ def run_summary_lines(run, spec, out: Path, keep: str = "latest", colour=plain, 
     line = f"  graded {run.n_graded} of {run.n_files} files"
     lines.append(c(line, "32") if run.n_graded == run.n_files else line)
     if run.mean_percent is not None:
-        lines.append(f"  mean score {run.mean_percent:.0f} %; {run.n_pass} of {run.n_graded} at or above the pass "
+        lines.append(f"  mean score {run.mean_percent:.0f} %; {run.n_pass} of {run.n_counted} at or above the pass "
                      f"mark ({spec.pass_fraction:.0%})")
     if run.n_unreadable:
         lines.append(c(f"  {run.n_unreadable} unreadable file(s): reasons in section.html and results.json", "33"))

@@ -70,6 +70,7 @@ class RunSummary:
     n_skipped: int = 0
     n_unmatched: int = 0
     n_superseded: int = 0
+    n_counted: int = 0  # graded files that count (one per student), in the mean and the pass count
     n_reconciled: int = 0  # files matched to the roster other than by an exact id (listed for review)
     internal_errors: list[str] = field(default_factory=list)
     mean_percent: float | None = None
@@ -580,6 +581,7 @@ class _SectionRun:
             if graded:
                 percents = [100.0 * s["score"] / s["max_score"] for s in graded]
                 run.mean_percent = sum(percents) / len(percents)
+                run.n_counted = len(percents)
                 run.n_pass = sum(p >= 100.0 * spec.pass_fraction - 1e-9 for p in percents)
             completion = {"complete": True, "labcheck_version": __version__,
                           "finished": run_time().isoformat(timespec="seconds"), "counts": run.counts(),
