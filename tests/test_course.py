@@ -397,3 +397,22 @@ def test_sections_graded_apart_and_a_failed_grade_costs_nothing(tmp_path, inputs
         course.grade(dip_spec, [empty])
     assert course.conn.execute("SELECT count(*) FROM runs").fetchone()[0] == before
     assert sorted(p.name for p in (tmp_path / "course" / "labs" / "horizon_dip").iterdir()) == ["run-001", "run-002"]
+
+
+def test_export_points_possible_row(tmp_path, inputs, dip_spec):
+    course = _new_course(tmp_path, inputs)
+    course.grade(load_spec(shipped_spec("taped_baseline")), [inputs.inputs["taped_baseline"]])
+    out = tmp_path / "pp.csv"
+    course.write_export(out, points_possible=True)
+    rows = _read_export(out)
+    graded = [r for r in course.current_results("taped_baseline").values() if r["status"] == "graded"]
+    assert rows[1] == ["Points Possible", "", f"{graded[0]['max_score']:g}"]
+    assert len(rows) == 2 + len(STUDENTS) and all(float(r[2]) <= float(rows[1][2]) for r in rows[2:] if r[2])
+    course.write_export(out, points_possible=True, as_percent=True)
+    assert _read_export(out)[1] == ["Points Possible", "", "100"]
+    # the dip lab grades the methods each group attempted: maxima differ, so points need percent
+    course.grade(dip_spec, [inputs.inputs["horizon_dip"]])
+    maxima = {r["max_score"] for r in course.current_results("horizon_dip").values() if r["status"] == "graded"}
+    assert len(maxima) > 1  # the demo has groups that did one method or both
+    with pytest.raises(CourseError, match="different maximum scores"):
+        course.write_export(out, points_possible=True)

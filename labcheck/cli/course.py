@@ -214,7 +214,8 @@ def cmd_export(args) -> int:
     with _open(args.dir) as course:
         n, labs = course.write_export(out, as_percent=args.scale == "percent", id_header=args.id_header,
                                       name_header=args.name_header, with_section=args.with_section,
-                                      headers=dict(_header(h) for h in args.header or []), labs=args.lab, sep=sep)
+                                      headers=dict(_header(h) for h in args.header or []), labs=args.lab, sep=sep,
+                                      points_possible=args.points_possible)
     print(f"wrote {out}: {n} student(s) x {len(labs)} lab(s), "
           f"{'percent of each lab' if args.scale == 'percent' else 'points'} with adjustments; blank = no graded file")
     return 0
@@ -357,6 +358,8 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("--header", action="append", metavar="LAB=HEADING", help="a lab's column heading (repeatable)")
     q.add_argument("--lab", action="append", metavar="LAB", help="only these labs (repeatable; default all)")
     q.add_argument("--sep", choices=("comma", "semicolon", "tab"), default="comma")
+    q.add_argument("--points-possible", action="store_true",
+                   help="a second row with each lab's maximum (100 in percent), as some LMS imports want")
     q.add_argument("--force", action="store_true", help="replace FILE")
     q.set_defaults(func=cmd_export)
 

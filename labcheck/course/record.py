@@ -613,7 +613,8 @@ class Course:
 
     def write_export(self, path: str | Path, *, as_percent: bool = False, id_header: str = "student_id",
                      name_header: str = "name", with_section: bool = False, headers: dict | None = None,
-                     labs: list[str] | None = None, sep: str = ",") -> tuple[int, list[str]]:
+                     labs: list[str] | None = None, sep: str = ",",
+                     points_possible: bool = False) -> tuple[int, list[str]]:
         """The LMS grade file: one row per active roster student, one column per lab (docs/course.md,
         "Export").  Every text cell is neutralised; written to a ``.part`` file, then renamed.
         Returns (rows, labs written)."""
@@ -632,6 +633,9 @@ class Course:
         with open(tmp, "w", encoding="utf-8", newline="") as fh:
             w = csv.writer(fh, delimiter=sep, quoting=csv.QUOTE_ALL)
             w.writerow([neutralise_cell(h) for h in head])
+            if points_possible:  # the row some LMS imports read each column's maximum from
+                w.writerow(["Points Possible"] + [""] * (len(head) - len(wanted) - 1) +
+                           [f"{self._points_possible(lab, as_percent):g}" for lab in wanted])
             for row in rows:
                 e = row["student"]
                 cells = [e.student_id] + ([e.name] if name_header else []) + ([e.section] if with_section else [])
@@ -640,6 +644,17 @@ class Course:
         tmp.replace(path)
         self._log("export", {"file": str(path), "rows": len(rows), "labs": wanted, "percent": as_percent})
         return len(rows), wanted
+
+    def _points_possible(self, lab_id: str, as_percent: bool) -> float:
+        """A lab's maximum for an LMS: 100 in percent; in points, the one maximum its current results share."""
+        if as_percent:
+            return 100.0
+        maxima = {round(r["max_score"], 6) for r in self.current_results(lab_id).values()
+                  if r["status"] == "graded" and r["max_score"]}
+        if len(maxima) != 1:
+            raise CourseError(f"lab {lab_id}'s students have different maximum scores ({', '.join(f'{m:g}' for m in sorted(maxima)) or 'none'}: "
+                              "the methods they attempted differ); export it with --scale percent")
+        return maxima.pop()
 
     def write_feedback(self, lab_id: str, out: str | Path, page_size: str | None = None, progress=None, jobs: int = 1,
                        students: list[str] | None = None) -> tuple[list[str], Path]:
