@@ -9,6 +9,7 @@ from labcheck.base.resources import shipped_spec
 from labcheck.model.spec import load_spec
 from labcheck.reading.submission import normalise
 from labcheck.grading.grade import grade_submission
+from labcheck.report.words import worded  # records as the outputs show them
 
 ARCMIN = math.radians(1 / 60)
 
@@ -43,7 +44,7 @@ def good_dip_rows(h=12.0, readings=(5.9, 6.0, 6.1, 6.0, 6.0), sid="s1", name="Te
 def grade_rows(spec, rows):
     raw = read_rows(csv_bytes(rows), "sub.csv")
     assert raw.error is None, raw.error
-    return grade_submission(normalise(raw, spec), spec)
+    return worded(grade_submission(normalise(raw, spec), spec))
 
 
 def step(record, key):

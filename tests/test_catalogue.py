@@ -14,6 +14,7 @@ import pytest
 
 from labcheck.demo import SECTIONS
 from labcheck.grading.grade import GENERIC_SLIPS, evaluate_chain, grade_submission, method_inputs
+from labcheck.report.words import worded
 from labcheck.reading.ingest import read_rows
 from labcheck.base.resources import shipped_spec
 from labcheck.model.spec import load_spec
@@ -34,7 +35,7 @@ def with_result(rows, key, value_text, unit):
 
 
 def grade(spec, rows):
-    return grade_submission(normalise(read_rows(csv_bytes(rows), "x.csv"), spec), spec)
+    return worded(grade_submission(normalise(read_rows(csv_bytes(rows), "x.csv"), spec), spec))
 
 
 def cases():

@@ -17,6 +17,7 @@ from hypothesis import HealthCheck, assume, given, settings, strategies as st
 from pvlib import spa
 
 from labcheck.grading.grade import grade_submission
+from labcheck.report.words import worded
 from labcheck.reading.ingest import read_rows
 from labcheck.base.resources import shipped_spec
 from labcheck.model.spec import load_spec
@@ -60,7 +61,7 @@ class Student:
 def grade(spec, rows):
     raw = read_rows(csv_bytes(rows), "honest.csv")
     assert raw.error is None, raw.error
-    return grade_submission(normalise(raw, spec), spec)
+    return worded(grade_submission(normalise(raw, spec), spec))
 
 
 def assert_honest(record):

@@ -9,6 +9,7 @@ import pytest
 from labcheck.demo.common import csv_bytes
 from labcheck.demo.dip import dip_section
 from labcheck.grading.grade import grade_submission
+from labcheck.report.words import worded
 from labcheck.reading.ingest import read_rows
 from labcheck.grading.integrity import P_LEAD, collect_evidence, find_leads
 from labcheck.reading.submission import normalise
@@ -18,9 +19,9 @@ def screen(spec, groups):
     evidence = []
     for g in groups:
         raw = read_rows(csv_bytes(g.rows), f"{g.student_id}.csv")
-        rec = grade_submission(normalise(raw, spec), spec)
+        rec = worded(grade_submission(normalise(raw, spec), spec))
         evidence.append(collect_evidence(rec, raw.rows, spec.shared_items))
-    return find_leads(evidence)
+    return worded(find_leads(evidence))
 
 
 @pytest.fixture(scope="module")

@@ -93,3 +93,38 @@ def test_every_module_says_what_it_holds():
         assert doc and len(doc) > 20, f"{f.relative_to(root)} has no opening docstring"
         if f.name == "__init__.py" and f.parent != root and f.parent.name not in DATA_PACKAGES:
             assert "import" in doc, f"{f.relative_to(root)}: a layer's docstring says what it may import"
+
+
+# The only number formatting below the report layer, and why each is not display of a grade.
+FORMATTING_ALLOWED = {
+    ("grading/grade.py", "transposed_digits"),  # the diagnosis compares digits as written: a test, not display
+    ("model/spec.py", "_range_words"),  # a spec author's error message (SpecError), not a student's record
+    ("model/schema.py", "_default_words"),  # docs/spec.md's tables, generated from the declaration
+    ("model/schema.py", "_limits_words"),
+}
+
+
+def test_no_module_below_the_report_layer_formats_a_value():
+    """Grading and everything below it hand over numbers, units and angles as data (labcheck.base.phrase);
+    the report layer's view model (labcheck.report.words) words them: no f-string format spec, and no
+    formatter (they live in labcheck/report/words.py), below the report layer."""
+    root = Path(labcheck.__file__).parent
+    found = []
+    for sub in ("base", "reductions", "methods", "model", "reading", "grading"):
+        for f in sorted((root / sub).rglob("*.py")):
+            rel = str(f.relative_to(root))
+            tree = ast.parse(f.read_text(encoding="utf-8"))
+            for func in [n for n in ast.walk(tree) if isinstance(n, (ast.FunctionDef, ast.AsyncFunctionDef))] + [tree]:
+                name = getattr(func, "name", "<module>")
+                body = ast.walk(func) if name != "<module>" else (n for n in tree.body if not isinstance(
+                    n, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)) for n in ast.walk(n))
+                for node in body:
+                    if isinstance(node, ast.FormattedValue) and node.format_spec is not None \
+                            and (rel, name) not in FORMATTING_ALLOWED:
+                        found.append(f"{rel}:{node.lineno} in {name}: {ast.unparse(node)}")
+    for f in sorted(root.rglob("*.py")):
+        if f.parent.name in ("base", "reductions", "methods", "model", "reading", "grading"):
+            text = f.read_text(encoding="utf-8")
+            for formatter in ("def format_value", "def format_fixed", "def format_dms"):
+                assert formatter not in text, f"{f.relative_to(root)} defines {formatter[4:]}: it belongs to report/words.py"
+    assert not found, "values formatted below the report layer:\n" + "\n".join(sorted(set(found)))

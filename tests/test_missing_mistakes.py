@@ -9,6 +9,7 @@ import math
 
 from labcheck.demo import SECTIONS
 from labcheck.grading.grade import evaluate_chain, grade_submission, method_inputs
+from labcheck.report.words import worded
 from labcheck.reading.ingest import read_rows
 from labcheck.base.resources import shipped_spec
 from labcheck.model.spec import load_spec, parse_spec
@@ -31,7 +32,7 @@ def _inputs(spec, method, rows):
 
 
 def _grade(spec, rows):
-    return grade_submission(normalise(read_rows(csv_bytes(rows), "x.csv"), spec), spec)
+    return worded(grade_submission(normalise(read_rows(csv_bytes(rows), "x.csv"), spec), spec))
 
 
 def _step(rec, key):

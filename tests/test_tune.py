@@ -49,7 +49,9 @@ def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
     from labcheck.report.text import format_tune_report
     from labcheck.grading.tune import _scaled
 
-    assert _scaled(spec.steps["dip_mean"].tolerance, 0.25).text == "0.005 arcmin"
+    from labcheck.report.words import word
+
+    assert word(_scaled(spec.steps["dip_mean"].tolerance, 0.25).text) == "0.005 arcmin"
     subs = [normalise(read_rows(csv_bytes(good_dip_rows(h=10 + i, sid=f"s{i}")), f"{i}.csv"), spec) for i in range(4)]
     report = tune(spec, subs)
     assert all(r.correct <= report.n for r in report.accuracy)  # at most one per student
@@ -66,6 +68,7 @@ def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
 
     from labcheck.demo import SECTIONS
     from labcheck.grading.grade import grade_submission
+    from labcheck.report.words import worded
     from labcheck.base.resources import shipped_spec
     from labcheck.model.spec import load_spec
     from labcheck.grading.tune import MULTIPLIERS, _scaled
@@ -79,7 +82,7 @@ def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
     for key, rule in spec.steps.items():
         for m, row in zip(MULTIPLIERS, report.steps[key]):
             tried = replace(spec, steps={**spec.steps, key: replace(rule, tolerance=_scaled(rule.tolerance, m))})
-            recs = [grade_submission(sub, tried) for sub in subs]
+            recs = [worded(grade_submission(sub, tried)) for sub in subs]
             verdicts = [s["verdict"] for r in recs for s in r["steps"] if s["id"] == key]
             pcts = [100 * r["score"] / r["max_score"] for r in recs if r["max_score"]]
             assert (row.correct, row.carried, row.wrong) == (verdicts.count("correct"), verdicts.count("carried"),

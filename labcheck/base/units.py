@@ -24,25 +24,7 @@ import math
 import re
 
 __all__ = [
-    "UnitError",
-    "UNITS",
-    "canonical_unit",
-    "to_si",
-    "from_si",
-    "parse_number",
-    "parse_dms_deg",
-    "parse_datetime",
-    "looks_dms",
-    "parse_quantity",
-    "parse_value",
-    "read_value",
-    "half_unit_si",
-    "decimal_convention",
-    "dms_is_unambiguous",
-    "format_value",
-    "format_fixed",
-    "format_dms",
-    "dms_seconds_decimals",
+    "UnitError", "UNITS", "canonical_unit", "to_si", "from_si", "parse_number", "parse_dms_deg", "parse_datetime", "looks_dms", "parse_quantity", "parse_value", "read_value", "half_unit_si", "decimal_convention", "dms_is_unambiguous", "dms_seconds_decimals",
 ]
 
 
@@ -555,62 +537,9 @@ def parse_quantity(text: str) -> tuple[float, str]:
     return number, _canonical(m.group("unit")) if m.group("unit") else ""
 
 
-def format_value(value_si: float | None, unit: str, kind: str, digits: int = 4) -> str:
-    """Format an SI value in ``unit`` with ``digits`` significant figures.
-
-    Used by the renderers; a template never formats numbers itself.
-    """
-    if value_si is None or not math.isfinite(value_si):
-        return "—"
-    if kind == "angle" and unit == "dms":  # degrees, minutes, seconds: never "92.0053 dms"
-        return format_dms(value_si, max(0, min(3, digits - 6)))
-    v = from_si(value_si, unit, kind) if kind in UNITS else value_si
-    if not math.isfinite(v):
-        return "—"
-    if abs(v) < 1e-12:  # float noise of an exact zero (identical readings' scatter), never 8.3e-16
-        v = 0.0
-    if v == 0:
-        text = "0"
-    else:
-        magnitude = math.floor(math.log10(abs(v)))
-        decimals = max(0, digits - 1 - magnitude)
-        text = f"{v:.{decimals}f}"
-    return f"{text} {unit}".strip() if unit not in ("1", "") else text
-
-
-def format_dms(angle_rad: float, seconds_decimals: int = 0) -> str:
-    """An angle as D°MM′SS″ with ``seconds_decimals`` decimals of seconds (``92°00′53″``, ``−0°11′20.5″``)."""
-    if angle_rad is None or not math.isfinite(angle_rad):
-        return "—"
-    total = round(abs(math.degrees(angle_rad)) * 3600.0, seconds_decimals)
-    d, rest = divmod(total, 3600.0)
-    m, sec = divmod(rest, 60.0)
-    sign = "−" if angle_rad < 0 and total > 0 else ""
-    width = 2 + (seconds_decimals + 1 if seconds_decimals else 0)
-    return f"{sign}{int(d)}°{int(m):02d}′{sec:0{width}.{seconds_decimals}f}″"
-
-
 def dms_seconds_decimals(text: str) -> int | None:
     """Decimals of the seconds a D M S value was written with (``0 10 42.5`` → 1), or None if not D M S."""
     parts = re.findall(r"\d+(?:[.,](\d+))?", _strip_hemisphere(str(text))[0])
     if len(parts) != 3:
         return None
     return len(parts[-1])
-
-
-def format_fixed(value, decimals: int, unit: str = "") -> str:
-    """A value already in ``unit`` with a fixed number of decimals, thin-space thousands, and the unit.
-
-    Tiny values (a haversine of 6.7e-07) are written in e-notation with the same resolution; a
-    missing or non-finite value is a dash.  The one fixed-decimal formatter of sheets and tables.
-    """
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "—"
-    v = float(value)
-    if v != 0 and abs(v) < 1e-3:
-        figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
-        text = f"{v:.{min(figures, 12) - 1}e}"
-    else:
-        text = f"{v:,.{decimals}f}".replace(",", "\u2009")
-    return f"{text} {unit}" if unit and unit != "1" else text
-

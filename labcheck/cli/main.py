@@ -240,6 +240,7 @@ def cmd_tune(args) -> int:
     from labcheck.reading.submission import normalise
     from labcheck.grading.tune import tune, tuned_spec_text
     from labcheck.report.text import format_tune_report
+    from labcheck.report.words import word
 
     spec = _resolve_spec(args.spec)
     subs = [normalise(item, spec) for item in iter_submissions(args.inputs)
@@ -254,8 +255,8 @@ def cmd_tune(args) -> int:
         out = Path(args.write)
         if out.exists() and not args.force:
             raise OutputExistsError(f"{out} exists; add --force to replace it")
-        text = tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), report.suggestion["full_within"],
-                               report.suggestion["zero_beyond"])
+        text = tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), word(report.suggestion["full_within"]),
+                               word(report.suggestion["zero_beyond"]))
         out.write_text(text, encoding="utf-8")
         load_spec(out)  # the tuned copy must itself be a valid spec
         print(f"\n  wrote the tuned copy {out} (only [accuracy] changed); compare runs with labcheck diff")

@@ -27,6 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from labcheck.grading.adjust import apply_adjustments, step_state
+from labcheck.report.words import worded
 from labcheck.reading.identity import Roster, RosterEntry
 
 __all__ = ["DB_NAME", "SCHEMA_VERSION", "Course", "CourseError", "LabStatus"]
@@ -383,7 +384,7 @@ class Course:
             for sid, items in adjustments.items():
                 rec = next((r for r in records if r.get("student_id") == sid and r.get("submission") not in superseded),
                            None)
-                applied = apply_adjustments(rec or {"status": "missing"}, items) or {"items": []}
+                applied = worded(apply_adjustments(rec or {"status": "missing"}, items)) or {"items": []}
                 for item in applied["items"]:
                     db.execute("INSERT INTO run_adjustments VALUES (?, ?, ?, ?, ?)",
                                (run_id, item["id"], int(item["applied"]), int(item["changed"]), item["change"]))
@@ -487,7 +488,7 @@ class Course:
     def adjusted(self, lab_id: str, row: sqlite3.Row) -> dict | None:
         """A current result with today's active adjustments applied (None when it has none)."""
         mine = [a for a in self.adjustments(lab_id) if a["student_id"] == row["student_id"]]
-        return apply_adjustments(_record(row), mine) if mine else None
+        return worded(apply_adjustments(_record(row), mine)) if mine else None
 
     # ------------------------------------------------------------ identity decisions
     def _submission(self, lab_id: str, text: str) -> str:
@@ -581,7 +582,7 @@ class Course:
                     st.unexplained.append(dict(who, step=step))
             for a in self.adjustments(lab["lab_id"]):
                 row = current.get(a["student_id"])
-                applied = apply_adjustments(_record(row) if row is not None else {"status": "missing"}, [a])
+                applied = worded(apply_adjustments(_record(row) if row is not None else {"status": "missing"}, [a]))
                 item = applied["items"][0]
                 if item["changed"] or not item["applied"]:
                     st.adjustments.append({"student_id": a["student_id"], "name": roster.get(a["student_id"], RosterEntry("", "")).name,

@@ -12,6 +12,7 @@ from labcheck.model.spec import LabSpec, load_spec
 from labcheck.reading.ingest import RawSubmission, iter_submissions
 from labcheck.reading.submission import normalise
 from labcheck.report.text import format_diff, format_tune_report
+from labcheck.report.words import word
 from labcheck.run.batch import grade_section
 
 __all__ = ["tune_and_diff"]
@@ -25,11 +26,11 @@ def tune_and_diff(spec: LabSpec, zip_path: Path, roster: Path, folder: Path) -> 
     if not report.suggestion:
         return []
     tuned = folder / "horizon_dip_tuned.toml"
-    tuned.write_text(tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), report.suggestion["full_within"],
-                                     report.suggestion["zero_beyond"]), encoding="utf-8")
+    full, zero = word(report.suggestion["full_within"]), word(report.suggestion["zero_beyond"])
+    tuned.write_text(tuned_spec_text(Path(spec.path).read_text(encoding="utf-8"), full, zero), encoding="utf-8")
     grade_section(load_spec(tuned), [zip_path], folder / "graded-tuned", roster, force=True)
     d = diff_runs(load_results(folder / "graded"), load_results(folder / "graded-tuned"))
     (folder / "diff_report.txt").write_text(format_diff(d, "graded", "graded-tuned"), encoding="utf-8")
-    return [f"  tune: suggested accuracy bands {report.suggestion['full_within']} / {report.suggestion['zero_beyond']} "
+    return [f"  tune: suggested accuracy bands {full} / {zero} "
             f"(report: {folder / 'tune_report.txt'}); regraded with them into {folder / 'graded-tuned'}",
             f"  diff: {len(d.changed)} student(s) would change ({folder / 'diff_report.txt'})"]

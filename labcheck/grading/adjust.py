@@ -17,6 +17,8 @@ is still applied but marked ``changed`` for the instructor's review.
 
 from __future__ import annotations
 
+from labcheck.base.phrase import Number, phrase
+
 __all__ = ["apply_adjustments", "step_state"]
 
 
@@ -61,8 +63,10 @@ def apply_adjustments(record: dict, adjustments: list[dict]) -> dict | None:
                 basis = (adj.get("basis_verdict"), adj.get("basis_points"))
                 if basis != (None, None) and (basis[0] != verdict or abs(float(basis[1]) - points) > 1e-9):
                     item["changed"] = True
-                    item["change"] = (f"the step was {basis[0]} with {basis[1]:g} points when adjusted; "
-                                      f"labcheck now gives {verdict} with {points:g}")
+                    item["change"] = phrase("the step was {was} with {was_points} points when adjusted; labcheck now "
+                                            "gives {now} with {now_points}", was=basis[0],
+                                            was_points=Number(float(basis[1]), "g"), now=verdict,
+                                            now_points=Number(points, "g"))
         else:
             item["applied"] = True
             total += item["points"]

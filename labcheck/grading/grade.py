@@ -27,7 +27,6 @@ from __future__ import annotations
 import itertools
 import math
 import re
-from datetime import datetime, timezone
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -38,8 +37,8 @@ from labcheck.reductions.stats import grubbs_test, scatter_test
 from labcheck.methods import Method, Step
 from labcheck.model.spec import LabSpec, StepRule
 from labcheck.reading.submission import Reading, Submission
-from labcheck.base.units import (UNITS, canonical_unit, dms_seconds_decimals, format_dms, format_fixed, format_value, from_si,
-                    half_unit_si, parse_quantity, to_si)
+from labcheck.base.phrase import DMS, Number, ObsValue, Percent, StepDecimals, StepValue, Value, phrase
+from labcheck.base.units import canonical_unit, dms_seconds_decimals, from_si, half_unit_si, parse_quantity, to_si
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record",
            "GENERIC_SLIPS", "safe_id", "StepTrace", "judge"]
@@ -59,28 +58,15 @@ def safe_id(text: str) -> str:
     return s[:80]
 
 
-def display_decimals(rule: StepRule, value_display: float | None) -> int:
-    """Decimals to show a step's values with: one more than the tolerance's resolution.
-
-    So that a student can always see a difference the grader acts on.
-    """
+def _decimals(rule: StepRule, basis_si: float | None) -> StepDecimals:
+    """How the step's values are shown (worded by the report layer): its tolerance around ``basis_si``."""
     tol = rule.tolerance
-    if tol.relative is not None:
-        if not value_display:
-            return 6
-        resolution = tol.relative * abs(value_display)
-    else:
-        resolution = float(from_si(tol.absolute_si, rule.unit, rule.step.kind)) if rule.step.kind in UNITS else tol.absolute_si
-    if not resolution or not math.isfinite(resolution):
-        return 6
-    return int(min(12, max(0, math.ceil(-math.log10(resolution)) + 1)))
+    return StepDecimals(rule.unit, rule.step.kind, tol.relative, tol.absolute_si, basis_si)
 
 
-def format_step_value(value_si: float | None, rule: StepRule, decimals: int) -> str:
-    """A step's value in its display unit with ``decimals`` decimals and the unit."""
-    if value_si is None:
-        return "—"
-    return format_fixed(float(from_si(value_si, rule.unit, rule.step.kind)), decimals, rule.unit)
+def _step_value(value_si: float | None, rule: StepRule, basis_si: float | None) -> StepValue:
+    """A step's value, shown in its unit with the decimals its tolerance needs around ``basis_si``."""
+    return StepValue(value_si, _decimals(rule, basis_si))
 
 
 def _display(value_si: float | None, unit: str, kind: str) -> float | None:
@@ -143,10 +129,8 @@ def _gather_observations(method: Method, sub: Submission, spec: LabSpec):
         else:
             values[o.name] = float(arr.mean())
             if len(arr) > 1:
-                notes.append(
-                    f"{o.label}: {len(arr)} values were given; their mean "
-                    f"{_observation_text(o, values[o.name], spec)} is used."
-                )
+                notes.append(phrase("{label}: {n} values were given; their mean {mean} is used.", label=o.label,
+                                    n=len(arr), mean=_observation_value(o, values[o.name], spec)))
         used[o.name] = (key, readings)
     return values, missing, used, notes
 
@@ -159,13 +143,10 @@ def _default_si(o) -> float:
     return float(to_si(number, unit, o.kind))
 
 
-def _observation_text(o, value_si: float, spec: LabSpec, digits: int = 6) -> str:
-    """An observation's value as shown: coordinates to 0.000001° or better, others to ``digits`` figures."""
-    if o.kind == "choice":
-        return o.choices[int(round(value_si))]
-    if o.kind == "datetime":
-        return datetime.fromtimestamp(value_si, timezone.utc).strftime("%Y-%m-%d %H:%M:%S UTC")
-    return format_value(value_si, spec.observations[o.name].unit, o.kind, 9 if o.hemisphere else digits)
+def _observation_value(o, value_si: float, spec: LabSpec, digits: int = 6) -> ObsValue:
+    """An observation's value as the report layer shows it (coordinates to 0.000001° or better)."""
+    unit = spec.observations[o.name].unit if o.name in spec.observations else o.unit
+    return ObsValue(value_si, unit, o.kind, o.hemisphere, tuple(o.choices), digits)
 
 
 def method_inputs(method: Method, sub: Submission, spec: LabSpec) -> tuple[dict, dict, dict]:
@@ -342,7 +323,7 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     method's model error (``widen_text`` says so on the sheet).
     """
     step, tol = rule.step, rule.tolerance
-    tol_text = tol.text + widen_text
+    tol_text = phrase("{tol}{widen}", tol=tol.text, widen=widen_text)
     if rep is None:
         run.traces.append(StepTrace(rule.key, step.id, rule.points, None, exp, False, widen, (), frozenset()))
         also = ""
@@ -356,20 +337,21 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     run.traces.append(trace)
     verdict, matched = judge(tol, trace, run.verdicts)
     if verdict == "correct" and matched is None and exp is not None:
-        return "correct", f"Matches the value recomputed from your observations (tolerance {tol_text}).", None
+        return "correct", phrase("Matches the value recomputed from your observations (tolerance {tol}).",
+                                 tol=tol_text), None
     if verdict == "correct" and matched is None:
         return "correct", ("Recomputed from your observations this value is unbounded (the quantities it divides by "
                            "agree to the last digit), so any positive value you report is consistent with them."), None
     if verdict == "correct":
         if exp is None:
             used = ", ".join(run.method.step(u).label for u in sorted(matched)) or "earlier steps"
-            return "correct", (
-                f"Follows correctly from your own value of {used} (tolerance {tol_text}); it cannot be recomputed "
-                f"from your observations: {run.why_missing.get(step.id, 'inputs missing')}."
-            ), None
-        return "correct", (
-            f"Follows from your own earlier values, which were correct within their tolerance (tolerance {tol_text})."
-        ), None
+            return "correct", phrase(
+                "Follows correctly from your own value of {used} (tolerance {tol}); it cannot be recomputed "
+                "from your observations: {why}.", used=used, tol=tol_text,
+                why=run.why_missing.get(step.id, "inputs missing")), None
+        return "correct", phrase(
+            "Follows from your own earlier values, which were correct within their tolerance (tolerance {tol}).",
+            tol=tol_text), None
     if verdict == "carried":
         wrong_upstream = [u for u in sorted(matched) if run.verdicts.get(u) in ("wrong", "carried") and u in run.reported_si]
         names = ", ".join(run.method.step(u).label for u in wrong_upstream)
@@ -381,15 +363,13 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
         return "missing", f"Cannot be checked: {run.why_missing.get(step.id, 'inputs missing')}.", None
     diff = abs(rep.si - exp)
     rel_pct = diff / abs(exp) * 100 if exp else None
-    rel = "" if rel_pct is None else f" ({_pct_text(rel_pct)})"
-    decimals = display_decimals(rule, _display(exp, rule.unit, step.kind))
-    explanation = (
-        f"Differs from the recomputed value by {format_step_value(diff, rule, decimals)}{rel}; "
-        f"the tolerance is {tol_text}."
-    )
+    rel = "" if rel_pct is None else phrase(" ({pct})", pct=Percent(rel_pct))
+    explanation = phrase("Differs from the recomputed value by {diff}{rel}; the tolerance is {tol}.",
+                         diff=_step_value(diff, rule, exp), rel=rel, tol=tol_text)
     diagnosis = _diagnose(rule, run.spec, rep.si, ref_inputs, own_inputs, exp, own, (rep.text, rep.unit))
     if diagnosis is None:
-        explanation += " No known mistake reproduces your value: compare your working with the formula and the inputs shown."
+        explanation = phrase("{text} No known mistake reproduces your value: compare your working with the formula "
+                             "and the inputs shown.", text=explanation)
     return "wrong", explanation, diagnosis
 
 
@@ -435,7 +415,7 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
     if total < 0.05 * base:  # negligible beside the tolerance: not worth a word on the sheet
         return total, ""
     words = "the method's model error" if not converted else f"the precision of {', '.join(reasons)} as written"
-    return total, f", widened by {format_value(total, rule.unit, step.kind, 2)} for {words}"
+    return total, phrase(", widened by {by} for {words}", by=Value(total, rule.unit, step.kind, 2), words=words)
 
 
 _MAX_COMBINATIONS = 81
@@ -485,10 +465,10 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             r2 = spec.steps[spec.step_key(method.id, name)]
             yours = run.reported_si.get(name)
             exp2 = run.expected.get(name)
-            dec = display_decimals(r2, _display(exp2 if exp2 is not None else yours, r2.unit, s2.kind))
+            basis = exp2 if exp2 is not None else yours
             entry.update(label=s2.label, origin="earlier step",
-                         value=format_step_value(exp2, r2, dec),
-                         yours=format_step_value(yours, r2, dec) if yours is not None else None)
+                         value=_step_value(exp2, r2, basis),
+                         yours=_step_value(yours, r2, basis) if yours is not None else None)
         elif name in run.consts:
             entry.update(label=method.constant(name).label, origin="constant", value=run.consts_text[name], yours=None)
         else:
@@ -499,7 +479,7 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             elif np.ndim(val):
                 text = f"{len(val)} values" if not o.spread else f"{len(val)} readings"
             else:
-                text = _observation_text(o, val, spec)
+                text = _observation_value(o, val, spec)
             entry.update(label=o.label, origin="observation", value=text, yours=None)
         shown.append(entry)
     return shown
@@ -535,7 +515,7 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
     details, notes = [], []
     if ref_out:
         for key, label, k, unit in reference.extras:
-            details.append({"label": label, "value": format_value(ref_out[key], unit, k, 8)})
+            details.append({"label": label, "value": Value(ref_out[key], unit, k, 8)})
         for key, obs_name in reference.compare:
             if obs_name in run.obs and key in ref_out:
                 o = method.observation(obs_name)
@@ -543,41 +523,42 @@ def _accuracy(run: _MethodRun, sub: Submission) -> tuple[dict | None, list[dict]
                 mine, theirs = float(np.mean(run.obs[obs_name])), float(ref_out[key])
                 notes.append({
                     "method": method.id, "observation": obs_name, "ok": True,
-                    "text": f"{o.label}: measured {format_value(mine, unit, o.kind, 6)}; the stations' coordinates "
-                            f"give {format_value(theirs, unit, o.kind, 6)} on the ellipsoid "
-                            f"({100 * (mine - theirs) / theirs:+.2f} %).",
+                    "text": phrase("{label}: measured {mine}; the stations' coordinates give {theirs} on the "
+                                   "ellipsoid ({pct} %).", label=o.label, mine=Value(mine, unit, o.kind, 6),
+                                   theirs=Value(theirs, unit, o.kind, 6),
+                                   pct=Number(100 * (mine - theirs) / theirs, "+.2f")),
                 })
     if value is None or ref is None:
         frac, err_pct = 0.0, None
         why = run.why_missing.get(method.result_step) if value is None else "; ".join(missing)
-        text = f"Cannot be judged: {why or 'the result could not be recomputed'}."
+        text = phrase("Cannot be judged: {why}.", why=why or "the result could not be recomputed")
     else:
         sigma = run.sigmas.get(method.result_step)
         frac = acc.score_fraction(value, ref, sigma)
         if kind == "angle":  # a percentage of a latitude means nothing: give the difference
             err_pct = None
-            off = format_value(abs(value - ref), rule.unit, kind, 2)
-            text = (f"Your observations give {format_value(value, rule.unit, kind, 7)}, {off} "
-                    f"{'above' if value > ref else 'below'} the {reference.label} {format_value(ref, rule.unit, kind, 7)}.")
+            text = phrase("Your observations give {value}, {off} {side} the {ref_label} {ref}.",
+                          value=Value(value, rule.unit, kind, 7), off=Value(abs(value - ref), rule.unit, kind, 2),
+                          side="above" if value > ref else "below", ref_label=reference.label,
+                          ref=Value(ref, rule.unit, kind, 7))
         else:
             err_pct = 100.0 * (value - ref) / ref
-            text = (
-                f"Your observations give {format_value(value, rule.unit, kind, 6)}, "
-                f"{_pct_text(abs(err_pct))} {'above' if err_pct > 0 else 'below'} the {reference.label} "
-                f"{format_value(ref, rule.unit, kind, 8)}."
-            )
+            text = phrase("Your observations give {value}, {pct} {side} the {ref_label} {ref}.",
+                          value=Value(value, rule.unit, kind, 6), pct=Percent(abs(err_pct)),
+                          side="above" if err_pct > 0 else "below", ref_label=reference.label,
+                          ref=Value(ref, rule.unit, kind, 8))
     sigma = run.sigmas.get(method.result_step)
     if sigma and value is not None and ref is not None:
-        pm = format_value(sigma, rule.unit, kind, 2)
-        text += (f" From your instruments' precision the result is uncertain by ± {pm} (one standard deviation); "
-                 f"the difference is {abs(value - ref) / sigma:.1f} σ.")
+        text = phrase("{text} From your instruments' precision the result is uncertain by ± {pm} (one standard "
+                      "deviation); the difference is {off} σ.", text=text, pm=Value(sigma, rule.unit, kind, 2),
+                      off=Number(abs(value - ref) / sigma, ".1f"))
     elif acc.kind == "sigma" and value is not None:
-        text += " No uncertainty could be propagated, so the sigma rule cannot be applied."
+        text = phrase("{text} No uncertainty could be propagated, so the sigma rule cannot be applied.", text=text)
     diagnosis = None
     if value is not None and ref is not None and frac < 1.0:
         diagnosis = _observation_unit_slip(run, ref, sigma)
         if diagnosis:
-            text += f" Likely cause: {diagnosis['text']}"
+            text = phrase("{text} Likely cause: {cause}", text=text, cause=diagnosis["text"])
     rep = sub.results.get(rule.key)
     return {
         "method": method.id,
@@ -645,10 +626,6 @@ def _observation_unit_slip(run: _MethodRun, ref: float, sigma: float | None) -> 
                     "full-points band. Check the unit you wrote it in."}
 
 
-def _pct_text(p: float) -> str:
-    return f"{p:.1f} %" if p >= 1 else f"{p:.2g} %"
-
-
 def _reported_sigmas(run: "_MethodRun", sub: Submission) -> list[dict]:
     """Grade the uncertainties students report (``<step>_sigma``) against the propagated ones."""
     spec, method = run.spec, run.method
@@ -661,7 +638,7 @@ def _reported_sigmas(run: "_MethodRun", sub: Submission) -> list[dict]:
         rep = sub.results.get(item)
         prop = run.sigmas.get(rule.step.id)
         f = spec.sigma_within_factor
-        dec = display_decimals(rule, _display(prop, rule.unit, rule.step.kind))
+        dec = _decimals(rule, prop)
         if rep is None:
             verdict, text = "missing", "Your uncertainty for this step was not reported."
         elif not prop:
@@ -670,17 +647,19 @@ def _reported_sigmas(run: "_MethodRun", sub: Submission) -> list[dict]:
             ratio = abs(rep.si) / prop
             ok = 1 / f <= ratio <= f
             verdict = "correct" if ok else "wrong"
-            text = (f"Your uncertainty is {ratio:.2g} times the one propagated from the instruments' standard "
-                    f"deviations ({format_step_value(prop, rule, dec)}); the lab accepts a factor of {f:g} either way."
-                    + ("" if ok else " Propagate each reading's uncertainty through the formula, and remember that "
-                                     "the mean of n readings has σ/√n."))
+            text = phrase("Your uncertainty is {ratio} times the one propagated from the instruments' standard "
+                          "deviations ({prop}); the lab accepts a factor of {f} either way.{advice}",
+                          ratio=Number(ratio, ".2g"), prop=StepValue(prop, dec), f=Number(f, "g"),
+                          advice="" if ok else " Propagate each reading's uncertainty through the formula, and "
+                                               "remember that the mean of n readings has σ/√n.")
         out.append({
             "id": item, "method": method.id, "step": f"{rule.step.id}_sigma", "label": f"your uncertainty of the {rule.step.label}",
             "unit": rule.unit, "formula": "σ² = Σ (∂f/∂xᵢ · σᵢ)²", "source": "first-order propagation (GUM, JCGM 100:2008, §5.1)",
             "inputs": [], "expected": _display(prop, rule.unit, rule.step.kind) if prop else None,
             "reported": _display(abs(rep.si), rule.unit, rule.step.kind) if rep else None,
             "reported_as": f"{rep.text} {rep.unit}".strip() if rep else None, "reported_row": rep.row if rep else None,
-            "carried_expected": None, "tolerance": f"within a factor {f:g}", "sigma": None, "decimals": dec,
+            "carried_expected": None, "tolerance": phrase("within a factor {f}", f=Number(f, "g")), "sigma": None,
+            "decimals": dec,
             "verdict": verdict, "points": spec.reported_sigma_points if verdict == "correct" else 0.0,
             "max_points": spec.reported_sigma_points, "diagnosis": None, "explanation": text,
         })
@@ -714,27 +693,27 @@ def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expect
         values = [r.si for r in readings]
         if rule.sigma_si:
             t = scatter_test(values, rule.sigma_si)
-            sd_text = format_value(t["sd"], rule.unit, o.kind, 2)
-            base = (f"{o.label}: readings scatter by {sd_text} (standard deviation of {n}); "
-                    f"the instrument's is {rule.sigma_text}")
+            base = phrase("{label}: readings scatter by {sd} (standard deviation of {n}); the instrument's is {sigma}",
+                          label=o.label, sd=Value(t["sd"], rule.unit, o.kind, 2), n=n, sigma=rule.sigma_text)
             ps = {"p_high": t["p_high"], "p_low": t["p_low"]}
             if t["p_high"] < q.alpha:
-                check(name, False, base + f". Scatter this large happens by chance with probability "
-                      f"{t['p_high']:.2g} (chi-square test): check for a misread or a moved instrument.", "scatter_high", **ps)
+                check(name, False, phrase("{base}. Scatter this large happens by chance with probability {p} "
+                                          "(chi-square test): check for a misread or a moved instrument.", base=base,
+                                          p=Number(t["p_high"], ".2g")), "scatter_high", **ps)
             elif t["p_low"] < q.alpha:
                 # Careful work is no fault: not scored, and worded as a plain observation.  An unusually
                 # small scatter stays a lead on the instructor's integrity page only.
                 out.append({"method": method.id, "observation": name, "ok": True, "id": "scatter_low", "check": False,
-                            "text": base + ": closer agreement than the instrument's stated σ leads one to expect. "
-                                           "Well done; no points depend on it.", **ps})
+                            "text": phrase("{base}: closer agreement than the instrument's stated σ leads one to "
+                                           "expect. Well done; no points depend on it.", base=base), **ps})
             else:
-                check(name, True, base + f": consistent (chi-square test, p = {min(t['p_high'], t['p_low']) * 2:.2g}).",
-                      "scatter", **ps)
+                check(name, True, phrase("{base}: consistent (chi-square test, p = {p}).", base=base,
+                                         p=Number(min(t["p_high"], t["p_low"]) * 2, ".2g")), "scatter", **ps)
         else:
             sd = float(np.std(values, ddof=1))
             out.append({"method": method.id, "observation": name, "ok": True, "id": "scatter", "check": False,
-                        "text": f"{o.label}: readings scatter by {format_value(sd, rule.unit, o.kind, 2)} "
-                                f"(standard deviation of {n})."})
+                        "text": phrase("{label}: readings scatter by {sd} (standard deviation of {n}).", label=o.label,
+                                       sd=Value(sd, rule.unit, o.kind, 2), n=n)})
         g = grubbs_test(values, q.outlier_alpha)
         if g is not None and rule.sigma_si:
             # Grubbs' test knows no scale: among readings far tighter than the instrument, a reading 0.6″
@@ -745,15 +724,18 @@ def _quality(method: Method, spec: LabSpec, used: dict, notes: list[str], expect
                 g = None
         if g is not None:
             r = readings[g["index"]]
-            check(name, False, f"{o.label}: the reading on row {r.row} ({r.text} {r.unit}) stands apart from the others "
-                  f"(Grubbs' test: G = {g['G']:.2f} > {g['critical']:.2f} for {n} readings at α = {q.outlier_alpha}). "
-                  "It is kept in your mean: check it against your field book.", "outlier")
+            check(name, False, phrase("{label}: the reading on row {row} ({written}) stands apart from the others "
+                                      "(Grubbs' test: G = {g} > {critical} for {n} readings at α = {alpha}). It is kept "
+                                      "in your mean: check it against your field book.", label=o.label, row=r.row,
+                                      written=f"{r.text} {r.unit}", g=Number(g["G"], ".2f"),
+                                      critical=Number(g["critical"], ".2f"), n=n, alpha=Number(q.outlier_alpha, "")),
+                  "outlier")
     if q.precision_standard and expected.get("precision_ratio") is not None:
         n_ratio = expected["precision_ratio"]
         ok = n_ratio >= q.precision_standard
-        check(None, ok, f"Forward and back runs agree to 1:{n_ratio:,.0f}; the lab's standard is "
-              f"1:{q.precision_standard:,.0f}" + ("." if ok else ": re-tape the line or look for a blunder."),
-              "precision_ratio")
+        check(None, ok, phrase("Forward and back runs agree to 1:{n}; the lab's standard is 1:{standard}{end}",
+                               n=Number(n_ratio, ",.0f"), standard=Number(q.precision_standard, ",.0f"),
+                               end="." if ok else ": re-tape the line or look for a blunder."), "precision_ratio")
     out += [{"method": method.id, "observation": None, "ok": True, "text": note, "check": False} for note in notes]
     return out
 
@@ -766,11 +748,11 @@ def _observations_shown(method: Method, spec: LabSpec, obs: dict, used: dict) ->
             text, note = f"{len(readings)} value{'s' if len(readings) != 1 else ''}", f"one per {o.per}"
         else:
             value = obs[name] if o.kind == "choice" else float(np.mean(obs[name]))
-            text, note = _observation_text(o, value, spec, 6), "mean" if len(readings) > 1 else ""
+            text, note = _observation_value(o, value, spec, 6), "mean" if len(readings) > 1 else ""
             written = [dms_seconds_decimals(r.text) for r in readings if r.unit == "dms"]
             if o.kind == "angle" and written and all(w is not None for w in written):
                 # Shown back as written: D°M′S″ to the seconds' decimals written (one more for a mean).
-                text = format_dms(value, min(3, max(written) + (1 if len(readings) > 1 else 0)))
+                text = DMS(value, min(3, max(written) + (1 if len(readings) > 1 else 0)))
         shown.append({
             "method": method.id,
             "name": name,
@@ -839,7 +821,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
             "tolerance": rule.tolerance.text,
             "tolerance_widened_by": _display(widen, rule.unit, step.kind) if widen else None,
             "sigma": _display(sigmas.get(step.id), rule.unit, step.kind) if sigmas.get(step.id) else None,
-            "decimals": display_decimals(rule, _display(exp if exp is not None else (rep.si if rep else None), rule.unit, step.kind)),
+            "decimals": _decimals(rule, exp if exp is not None else (rep.si if rep else None)),
             "verdict": verdict,
             "points": round(rule.points * factor, 3),
             "max_points": rule.points,

@@ -31,6 +31,7 @@ from array import array
 from collections import Counter, defaultdict
 from dataclasses import dataclass, field
 
+from labcheck.base.phrase import Number, phrase
 from labcheck.reductions.stats import terminal_digit_test
 
 __all__ = ["Evidence", "collect_evidence", "find_leads", "P_LEAD", "CAVEAT"]
@@ -135,7 +136,8 @@ def find_leads(evidence: list[Evidence]) -> list[dict]:
         jaccard = shared / union
         leads.append({
             "kind": "shared_readings", "students": [ea.key, eb.key], "names": [ea.name, eb.name],
-            "measure": f"Jaccard similarity {jaccard:.2f}", "p": None, "distance": round(1 - jaccard, 3),
+            "measure": phrase("Jaccard similarity {j}", j=Number(jaccard, ".2f")), "p": None,
+            "distance": round(1 - jaccard, 3),
             "evidence": f"{shared} of their {union} distinct readings are identical as written "
                         f"(items not declared shared by the lab).",
         })
@@ -146,7 +148,8 @@ def find_leads(evidence: list[Evidence]) -> list[dict]:
                 top = sorted(range(10), key=lambda d: -t["counts"][d])[:2]
                 leads.append({
                     "kind": "digit_preference", "students": [ev.key], "names": [ev.name],
-                    "measure": f"chi-square {t['statistic']:.1f} on 9 degrees of freedom", "p": t["p"], "distance": None,
+                    "measure": phrase("chi-square {x} on 9 degrees of freedom", x=Number(t["statistic"], ".1f")),
+                    "p": t["p"], "distance": None,
                     "evidence": f"last digits of {t['n']} raw readings: {t['counts']} (digits {top[0]} and {top[1]} "
                                 "most often); honest readings end in every digit about equally.",
                 })
@@ -161,7 +164,8 @@ def find_leads(evidence: list[Evidence]) -> list[dict]:
             if p < P_LEAD:
                 leads.append({
                     "kind": "too_close_to_reference", "students": [ev.key], "names": [ev.name],
-                    "measure": f"{abs(z):.5f} σ from the reference ({mid})", "p": p, "distance": abs(z),
+                    "measure": phrase("{z} σ from the reference ({method})", z=Number(abs(z), ".5f"), method=mid),
+                    "p": p, "distance": abs(z),
                     "evidence": "the result lies closer to the reference value than its propagated uncertainty "
                                 "makes plausible; were the observations adjusted to the known answer?",
                 })

@@ -17,7 +17,8 @@ from dataclasses import dataclass
 
 from labcheck.grading.grade import grade_submission, judge
 from labcheck.model.spec import AccuracyRule, LabSpec, Tolerance
-from labcheck.base.units import parse_quantity, format_value
+from labcheck.base.phrase import Number, Value, phrase
+from labcheck.base.units import parse_quantity
 
 __all__ = ["MULTIPLIERS", "TuneReport", "tune", "tuned_spec_text"]
 
@@ -44,13 +45,15 @@ class TuneReport:
 
 
 def _scaled(tol: Tolerance, m: float) -> Tolerance:
-    """The tolerance times ``m``, its text the value tried in the spec's own unit ("0.005 arcmin")."""
+    """The tolerance times ``m``; its text (worded by the report layer) the value tried in the spec's own unit
+    ("0.005 arcmin")."""
     if tol.relative is not None:
-        return Tolerance(f"{tol.relative * m * 100:.3g} %", relative=tol.relative * m)
+        return Tolerance(phrase("{v} %", v=Number(tol.relative * m * 100, ".3g")), relative=tol.relative * m)
     if m == 1:
         return tol
     number, unit = parse_quantity(tol.text)
-    return Tolerance(f"{number * m:.3g} {unit}".strip(), absolute_si=(tol.absolute_si or 0.0) * m)
+    text = phrase("{v} {unit}", v=Number(number * m, ".3g"), unit=unit) if unit else Number(number * m, ".3g")
+    return Tolerance(text, absolute_si=(tol.absolute_si or 0.0) * m)
 
 
 def tune(spec: LabSpec, submissions: list) -> TuneReport:
@@ -121,12 +124,13 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
             mean, n_pass = summarise(scores, maxes)
             if acc.kind in ("relative", "sigma"):
                 unit, scale = ("%", 100) if acc.kind == "relative" else ("sigma", 1)
-                text = f"{acc.full_within * m * scale:.3g} / {acc.zero_beyond * m * scale:.3g} {unit}"
+                text = phrase("{full} / {zero} {unit}", full=Number(acc.full_within * m * scale, ".3g"),
+                              zero=Number(acc.zero_beyond * m * scale, ".3g"), unit=unit)
             else:  # absolute bands, in the result's own display unit
                 first = next(iter(spec.steps.values()))
                 result = spec.steps[spec.step_key(first.method.id, first.method.result_step)]
-                text = (f"{format_value(acc.full_within * m, result.unit, result.step.kind, 3)} / "
-                        f"{format_value(acc.zero_beyond * m, result.unit, result.step.kind, 3)}")
+                text = phrase("{full} / {zero}", full=Value(acc.full_within * m, result.unit, result.step.kind, 3),
+                              zero=Value(acc.zero_beyond * m, result.unit, result.step.kind, 3))
             accuracy_rows.append(SweepRow(m, text, within, 0, 0, mean, n_pass))
 
     suggestion = None
@@ -134,7 +138,8 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
                   if a.get("sigma") and a.get("recomputed")]
     if rel_sigmas:
         med = statistics.median(rel_sigmas)
-        suggestion = {"median_sigma_pct": med, "full_within": f"{2 * med:.2g} %", "zero_beyond": f"{4 * med:.2g} %"}
+        suggestion = {"median_sigma_pct": med, "full_within": phrase("{v} %", v=Number(2 * med, ".2g")),
+                      "zero_beyond": phrase("{v} %", v=Number(4 * med, ".2g"))}
     return TuneReport(len(submissions), steps, accuracy_rows, suggestion)
 
 

@@ -13,6 +13,7 @@ from datetime import datetime, timezone
 
 import numpy as np
 
+from labcheck.base.phrase import Clock, Number, phrase
 from labcheck.reductions import sun
 from labcheck.reductions import zenith as zn
 from labcheck.reductions.ellipsoid import meridian_radius
@@ -65,21 +66,24 @@ def _noon_notes(prefix: str):
         off = (when - noon).total_seconds()
         window = consts.get("noon_window", 900.0)
         out = []
-        text_noon = noon.strftime("%H:%M:%S UTC")
+        text_noon = Clock(noon, "%H:%M:%S UTC")
+        side = "after" if off > 0 else "before"
         if abs(off) <= window:
-            out.append(("noon_timing", True, f"Observed {abs(off) / 60:.0f} min {'after' if off > 0 else 'before'} "
-                                             f"local apparent noon ({text_noon}); within the lab's window."))
+            out.append(("noon_timing", True, phrase("Observed {m} min {side} local apparent noon ({noon}); within "
+                                                    "the lab's window.", m=Number(abs(off) / 60, ".0f"), side=side,
+                                                    noon=text_noon)))
         else:
             lat = obs.get(f"{prefix}lat")
             dec = sun.declination(when)
             extra = ""
             if lat is not None:
                 dz = sun.zenith_at(lat, dec, sun.hour_angle(when, lon)) - sun.zenith_at(lat, dec, 0.0)
-                extra = (f" The sun was then {math.degrees(dz):.2f}° farther from the zenith than on the meridian, "
-                         f"so the noon rule puts the latitude about {math.degrees(dz):.2f}° in error.")
-            out.append(("noon_timing", False, f"Observed {abs(off) / 60:.0f} min {'after' if off > 0 else 'before'} "
-                                              f"local apparent noon ({text_noon}), outside the lab's window of "
-                                              f"{window / 60:.0f} min.{extra}"))
+                extra = phrase(" The sun was then {dz}° farther from the zenith than on the meridian, so the noon "
+                               "rule puts the latitude about {dz}° in error.", dz=Number(math.degrees(dz), ".2f"))
+            out.append(("noon_timing", False, phrase("Observed {m} min {side} local apparent noon ({noon}), outside "
+                                                     "the lab's window of {window} min.{extra}",
+                                                     m=Number(abs(off) / 60, ".0f"), side=side, noon=text_noon,
+                                                     window=Number(window / 60, ".0f"), extra=extra)))
             clock = written.get(f"{prefix}observed_at", "")
             try:
                 local = datetime.fromisoformat(clock.strip().replace("Z", "+00:00"))
@@ -87,12 +91,12 @@ def _noon_notes(prefix: str):
             except ValueError:
                 minutes = None
             if minutes is not None and abs(minutes - 12 * 60) <= 5:
-                noon_local = noon.astimezone(local.tzinfo).strftime("%H:%M")
-                out.append(("clock_time_as_solar_time", False,
-                            f"Likely cause: local clock time used as solar time. You observed at {local:%H:%M} by the "
-                            f"clock, but the clock keeps zone time: the sun crossed your meridian at {noon_local} clock "
-                            "time that day. Solar noon differs from clock noon by your longitude's distance from the "
-                            "zone's meridian (4 min per degree) and by the equation of time (−14 to +16 min)."))
+                out.append(("clock_time_as_solar_time", False, phrase(
+                    "Likely cause: local clock time used as solar time. You observed at {local} by the clock, but the "
+                    "clock keeps zone time: the sun crossed your meridian at {noon} clock time that day. Solar noon "
+                    "differs from clock noon by your longitude's distance from the zone's meridian (4 min per degree) "
+                    "and by the equation of time (−14 to +16 min).", local=Clock(local, "%H:%M"),
+                    noon=Clock(noon.astimezone(local.tzinfo), "%H:%M"))))
         return out
 
     return notes
@@ -381,9 +385,10 @@ def _pair_notes(obs, consts, written):
     spread = float(np.max(each) - np.min(each))
     limit = consts.get("index_error_tolerance", math.radians(10 / 3600))
     ok = spread <= limit
-    text = (f"Index errors of the {np.size(fl)} face pairs range over {math.degrees(spread) * 3600:.1f}″ "
-            f"(the lab allows {math.degrees(limit) * 3600:.0f}″)")
-    return [("face_pair_closure", ok, text + ("." if ok else ": a pair was misread or the instrument moved."))]
+    return [("face_pair_closure", ok, phrase(
+        "Index errors of the {n} face pairs range over {spread}″ (the lab allows {limit}″){end}", n=int(np.size(fl)),
+        spread=Number(math.degrees(spread) * 3600, ".1f"), limit=Number(math.degrees(limit) * 3600, ".0f"),
+        end="." if ok else ": a pair was misread or the instrument moved."))]
 
 
 FACE_PAIRS = Method(

@@ -211,7 +211,7 @@ def reconcile(record: dict, source: str, roster: Roster | None) -> None:
         if entry is not None:
             how = "name"
             detail = (f"student_id {written!r} is not on the roster; " if written else "no student_id given; ") + \
-                f"the name {record.get('name')!r} matches {entry.student_id} ({entry.name}) (score {score:.0f} of 100)"
+                f"the name {record.get('name')!r} matches {entry.student_id} ({entry.name}) (score {round(score)} of 100)"
     if entry is None:
         if written:
             record["unmatched"] = True

@@ -11,7 +11,8 @@ from dataclasses import dataclass, field
 
 from labcheck.reading.ingest import RawSubmission, Row
 from labcheck.model.spec import LabSpec
-from labcheck.base.units import UnitError, decimal_convention, format_value, read_value
+from labcheck.base.phrase import Value, phrase
+from labcheck.base.units import UnitError, decimal_convention, read_value
 
 __all__ = ["IDENTITY_FIELDS", "ItemSpec", "Reading", "Problem", "Submission", "normalise", "observation_keys", "result_keys"]
 
@@ -196,8 +197,8 @@ def _observation(sub: Submission, row: Row, item: str, obs_keys) -> None:
     if spec_item.kind == "length" and spec_item.positive and si <= 0:
         problem = "a height or distance must be greater than zero"
     elif spec_item.limits is not None and not spec_item.limits[0] <= si <= spec_item.limits[1]:
-        lo, hi = (format_value(v, unit, spec_item.kind, 6) for v in spec_item.limits)
-        problem = f"outside the physical range {lo} to {hi}"
+        lo, hi = (Value(v, unit, spec_item.kind, 6) for v in spec_item.limits)
+        problem = phrase("outside the physical range {lo} to {hi}", lo=lo, hi=hi)
     if problem:
         sub.problems.append(Problem(row.number, item, row.value, problem))
         sub.bad_items.add(item)

@@ -18,7 +18,8 @@ from labcheck import __version__
 from labcheck.report.outputs import run_time
 from labcheck.base.resources import templates_dir
 from labcheck.model.spec import LabSpec
-from labcheck.base.units import format_fixed, from_si, to_si
+from labcheck.base.units import from_si, to_si
+from labcheck.report.words import format_fixed
 
 __all__ = ["Renderer", "fmt_number", "VERDICT_WORDS"]
 

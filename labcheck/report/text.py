@@ -10,7 +10,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
-from labcheck.base.units import format_fixed
+from labcheck.report.words import format_fixed, word
 
 __all__ = ["run_summary_lines", "check_lines", "format_tune_report", "format_diff", "plain"]
 
@@ -103,18 +103,18 @@ def format_tune_report(report, spec) -> str:
         out.append(f"\n  {key}")
         for r in rows:
             mark = "  <- current" if r.multiplier == 1 else ""
-            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
+            out.append(f"    ×{r.multiplier:<5g} {word(r.tolerance):<22} {r.correct:>4} / {r.carried:>3} / {r.wrong:>3}"
                        f"   mean {r.mean_percent:5.1f} %   pass {r.n_pass}/{report.n}{mark}")
     if report.accuracy:
         out.append(f"\n  accuracy ({spec.accuracy.text})")
         for r in report.accuracy:
             mark = "  <- current" if r.multiplier == 1 else ""
-            out.append(f"    ×{r.multiplier:<5g} {r.tolerance:<22} students with full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
+            out.append(f"    ×{r.multiplier:<5g} {word(r.tolerance):<22} students with full points {r.correct:>4}   mean {r.mean_percent:5.1f} %"
                        f"   pass {r.n_pass}/{report.n}{mark}")
     if report.suggestion:
         sg = report.suggestion
         out.append(f"\n  The section's results carry a median propagated uncertainty of {sg['median_sigma_pct']:.2g} % "
-                   f"(1 sigma). Suggested bands: full_within = \"{sg['full_within']}\", zero_beyond = \"{sg['zero_beyond']}\" "
+                   f"(1 sigma). Suggested bands: full_within = \"{word(sg['full_within'])}\", zero_beyond = \"{word(sg['zero_beyond'])}\" "
                    "(2 and 4 sigma), or write them in sigmas: \"2 sigma\", \"4 sigma\".")
     return "\n".join(out) + "\n"
 

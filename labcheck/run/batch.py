@@ -37,6 +37,7 @@ from labcheck.reading.ingest import InputError, Limits, RawSubmission, Skipped, 
 from labcheck.grading.labmatch import wrong_lab_message
 from labcheck.report.outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
 from labcheck.report.render import Renderer
+from labcheck.report.words import worded
 from labcheck.model.spec import LabSpec
 from labcheck.reading.submission import normalise, observation_keys, result_keys
 
@@ -318,6 +319,7 @@ class _FileGrader:
                 else:
                     record = grade_submission(sub, spec)
             _identify(record, item.source, self.roster, self.assigned)
+            record = worded(record)  # grading's values and sentences, worded once for every output
             record["sheet"] = None
             graded = _Graded(record)
             if record["status"] == "graded":
@@ -567,7 +569,7 @@ class _SectionRun:
                         summaries.append(_summary(rec, spec))
                         run.n_missing += 1
             gradebook.close()
-            leads = find_leads([e for n, e in evidence if n not in self.superseded])
+            leads = worded(find_leads([e for n, e in evidence if n not in self.superseded]))
             run.n_leads = len(leads)
             _write_text(staging / "integrity.json", json.dumps(
                 {"lab": spec.id, "caveat": CAVEAT, "false_alarm_rate_per_test": P_LEAD, "leads": leads},
@@ -646,7 +648,7 @@ class _SectionRun:
                 self._resolve_identity(record, item)
                 mine = (self.adjustments or {}).get(record["student_id"])
                 if mine:
-                    record["adjustments"] = apply_adjustments(record, mine)
+                    record["adjustments"] = worded(apply_adjustments(record, mine))
                 if mine or (record["student_id"], record["name"], len(record["flags"])) != before:
                     # The sheet shows the identity and its flags: render it again with them (rare).
                     self.grader.render(graded)

@@ -13,6 +13,7 @@ from labcheck.grading.labmatch import wrong_lab_message
 from labcheck.model.spec import LabSpec
 from labcheck.reading.ingest import Limits, read_rows
 from labcheck.reading.submission import normalise
+from labcheck.report.words import worded
 
 __all__ = ["Checked", "check_bytes"]
 
@@ -33,4 +34,4 @@ def check_bytes(spec: LabSpec, data: bytes, name: str, limits: Limits = Limits()
     wrong = wrong_lab_message(sub, spec)
     if wrong:
         return Checked("wrong_lab", wrong, None)
-    return Checked("graded", None, grade_submission(sub, spec))
+    return Checked("graded", None, worded(grade_submission(sub, spec)))
