@@ -13,7 +13,7 @@ from dataclasses import dataclass
 __all__ = ["Phrase", "Value", "StepValue", "StepDecimals", "ObsValue", "Percent", "Number", "DMS", "Clock", "phrase"]
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Phrase:
     """A sentence or a part of one: ``template`` with ``{name}`` fields, filled from ``args`` when worded.
     An argument may itself be a phrase or one of the values below."""
@@ -26,7 +26,7 @@ def phrase(template: str, **args) -> Phrase:
     return Phrase(template, tuple(args.items()))
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Value:
     """A quantity in SI, shown in ``unit`` to ``digits`` significant figures."""
 
@@ -36,7 +36,7 @@ class Value:
     digits: int = 6
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class StepDecimals:
     """How many decimals a step's values are shown with: one more than its tolerance resolves around
     ``basis_si``, so that a difference the grader acts on is always visible.  The tolerance is a relative
@@ -47,9 +47,10 @@ class StepDecimals:
     relative: float | None
     absolute_si: float | None
     basis_si: float | None
+    decimals: int | None = None  # filled in once by the report layer (shared by a value and the student's)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class StepValue:
     """A step's value in SI, shown in the step's unit with the step's decimals ("—" when None)."""
 
@@ -57,7 +58,7 @@ class StepValue:
     decimals: StepDecimals
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class ObsValue:
     """An observation's value in SI as shown: a choice's word, a date and time, coordinates to 0.000001°
     or better, others to ``digits`` figures, in the lab's unit."""
@@ -70,14 +71,14 @@ class ObsValue:
     digits: int = 6
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Percent:
     """A percentage: one decimal from 1 %, two significant figures below."""
 
     value: float
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Number:
     """A plain number with a format spec (``".2g"``, ``".1f"``, ``",.0f"``, ``"+.2f"``; ``""`` as Python
     writes it)."""
@@ -86,7 +87,7 @@ class Number:
     spec: str = "g"
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class DMS:
     """An angle in SI (radians) as degrees, minutes and seconds, with ``decimals`` decimals of a second."""
 
@@ -94,7 +95,7 @@ class DMS:
     decimals: int
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class Clock:
     """A moment (an aware datetime) shown with a strftime ``fmt`` ("%H:%M", "%H:%M:%S UTC")."""
 

@@ -465,10 +465,9 @@ def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
             r2 = spec.steps[spec.step_key(method.id, name)]
             yours = run.reported_si.get(name)
             exp2 = run.expected.get(name)
-            basis = exp2 if exp2 is not None else yours
-            entry.update(label=s2.label, origin="earlier step",
-                         value=_step_value(exp2, r2, basis),
-                         yours=_step_value(yours, r2, basis) if yours is not None else None)
+            decimals = _decimals(r2, exp2 if exp2 is not None else yours)
+            entry.update(label=s2.label, origin="earlier step", value=StepValue(exp2, decimals),
+                         yours=StepValue(yours, decimals) if yours is not None else None)
         elif name in run.consts:
             entry.update(label=method.constant(name).label, origin="constant", value=run.consts_text[name], yours=None)
         else:
