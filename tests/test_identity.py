@@ -322,3 +322,18 @@ def test_reconcile_never_credits_silently(written, name, source):
         assert record["identity"]["credited"] == record["student_id"] and record["flags"]
     if record.get("identity"):
         assert record["identity"]["how"] in ("normalised", "folder", "conflict", "name")
+
+
+def test_a_date_in_a_folder_name_never_finds_a_numeric_student():
+    """A numeric roster's ids are matched in a path only with their own digits: an export's date
+    (``attempt_2026_10_31``) never credits student 00010."""
+    roster = _roster(("00003", "Corin Jessamy"), ("00010", "Dalia Kettleburn"), ("00123", "Emrys Larkspur"))
+    record = {"student_id": "", "name": "", "flags": []}
+    reconcile(record, "export/Smith_Ann_attempt_2026_10_31/lab.csv", roster)  # only "10" could be an id
+    assert record["student_id"] == "" and "identity" not in record
+    record = {"student_id": "", "name": "", "flags": []}
+    reconcile(record, "export/Larkspur_Emrys_00123_attempt_2026_10_03/lab.csv", roster)
+    assert record["student_id"] == "00123" and record["identity"]["how"] == "folder"
+    record = {"student_id": "123", "name": "", "flags": []}  # the sheet's id may drop the zeros; the path may not
+    reconcile(record, "export/unsorted/lab.csv", roster)
+    assert record["student_id"] == "00123" and record["identity"]["how"] == "normalised"

@@ -130,6 +130,7 @@ class Roster:
             self._by_key[key] = e
             self._by_exact[e.student_id] = e
         self._names = None
+        self._by_path = None
 
     def __len__(self) -> int:
         return len(self.entries)
@@ -148,11 +149,18 @@ class Roster:
         return self._by_key.get(self.key(text)) if text else None
 
     def in_path(self, source: str) -> RosterEntry | None:
-        """The one roster student whose id is a whole token of the file's path (folders of an LMS export)."""
+        """The one roster student whose id is a whole token of the file's path (folders of an LMS export).
+
+        Stricter than :meth:`find`: a path token must be the id with its own digits (leading zeros kept,
+        only case aside), so that a date's ``03`` or ``10`` in a folder name never finds student 3 or 10 of
+        a numeric roster.
+        """
+        if self._by_path is None:
+            self._by_path = {normalise_id(e.student_id): e for e in self.entries}
         hits = {}
         for part in PurePosixPath(source).parts:
             for token in {part, *(_TOKEN_SPLIT.split(part))}:
-                e = self.find(token) if token else None
+                e = self._by_path.get(normalise_id(token)) if token else None
                 if e is not None:
                     hits[e.student_id] = e
         return next(iter(hits.values())) if len(hits) == 1 else None
