@@ -677,8 +677,9 @@ class Course:
         wanted = None if students is None else {self.find_student(s).student_id for s in students}
         pages: list = []
         pool = None
-        if jobs > 1:
-            import multiprocessing
+        import multiprocessing
+
+        if jobs > 1 and "fork" in multiprocessing.get_all_start_methods():  # elsewhere (Windows): one process
             from concurrent.futures import ProcessPoolExecutor
 
             pool = ProcessPoolExecutor(jobs, mp_context=multiprocessing.get_context("fork"))
