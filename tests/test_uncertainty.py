@@ -91,3 +91,23 @@ def test_reported_uncertainty_is_judged_against_the_propagated_one(spec, factor,
     own = next(s for s in rec["steps"] if s["id"] == "dip.radius_sigma")
     assert own["verdict"] == verdict
     assert own["points"] == (2.0 if verdict == "correct" else 0.0)
+
+
+def test_quiet_is_entered_once_and_always_restored():
+    """One numpy error state per method graded: nested entries cost nothing, and numpy's own settings come
+    back on the way out, exception or not."""
+    import numpy as np
+    import pytest as _pytest
+
+    from labcheck.model.chain import _Quiet, quiet
+
+    before = np.geterr()
+    with quiet():
+        with quiet():
+            assert np.geterr()["divide"] == "ignore" and _Quiet.depth == 2
+        assert np.geterr()["invalid"] == "ignore" and _Quiet.depth == 1
+    assert np.geterr() == before and _Quiet.depth == 0
+    with _pytest.raises(ZeroDivisionError):
+        with quiet():
+            1 / 0
+    assert np.geterr() == before and _Quiet.depth == 0

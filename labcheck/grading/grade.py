@@ -31,7 +31,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from labcheck.model.chain import UNBOUNDED, Chain, evaluate_chain, evaluate_step, finite
+from labcheck.model.chain import UNBOUNDED, Chain, evaluate_chain, evaluate_step, finite, quiet
 from labcheck.model.uncertainty import propagate
 from labcheck.reductions.stats import grubbs_test, scatter_test
 from labcheck.methods import Method, Step
@@ -868,7 +868,8 @@ def grade_submission(sub: Submission, spec: LabSpec, traces: list | None = None)
         methods = [m for m in spec.methods if _attempted(m, sub, spec)] or list(spec.methods)
     steps, accuracy, quality, observations = [], {}, [], []
     for m in methods:
-        s, a, q, o = _grade_method(m, sub, spec, traces)
+        with quiet():  # one numpy error state for all of a method's evaluations
+            s, a, q, o = _grade_method(m, sub, spec, traces)
         steps += s
         if a is not None:
             accuracy[m.id] = a

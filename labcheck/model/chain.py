@@ -10,7 +10,8 @@ import numpy as np
 
 from labcheck.methods import Method, Step
 
-__all__ = ["Chain", "evaluate_chain", "evaluate_step", "evaluate_downstream", "downstream", "finite", "UNBOUNDED"]
+__all__ = ["Chain", "evaluate_chain", "evaluate_step", "evaluate_downstream", "downstream", "finite", "quiet",
+           "UNBOUNDED"]
 
 
 def finite(x) -> float | None:
@@ -28,20 +29,52 @@ UNBOUNDED = ("the value is unbounded for these inputs (a ratio whose denominator
              "such as two runs that agree to the last digit)")
 
 
+class _Quiet:
+    """numpy's floating-point warnings off, entered once however deeply nested: grading a submission enters
+    it once, and the chain, the propagation and every step evaluated inside pay nothing more (an
+    ``np.errstate`` costs microseconds, and a submission evaluates steps hundreds of times)."""
+
+    depth = 0
+
+    def __init__(self):
+        self._state = None
+
+    def __enter__(self):
+        if _Quiet.depth == 0:
+            self._state = np.errstate(all="ignore")
+            self._state.__enter__()
+        _Quiet.depth += 1
+        return self
+
+    def __exit__(self, *exc):
+        _Quiet.depth -= 1
+        if self._state is not None:
+            self._state.__exit__(*exc)
+            self._state = None
+        return False
+
+
+def quiet() -> _Quiet:
+    """``with quiet():`` numpy's floating-point warnings off for everything inside (entered once)."""
+    return _Quiet()
+
+
 def evaluate_step(step: Step, inputs: dict) -> tuple[float | None, str | None]:
     """The step's value, or None with the reason (a step raises ValueError with words for the student).
 
     A step whose value is +infinity gets the reason :data:`UNBOUNDED` (graded on its own terms).
     """
     raw = None
-    with np.errstate(all="ignore"):
-        try:
-            raw = step.evaluate(inputs)
-            value = finite(raw)
-        except ValueError as exc:
-            return None, str(exc)
-        except (ZeroDivisionError, OverflowError):
-            value = None
+    if not _Quiet.depth:
+        with quiet():
+            return evaluate_step(step, inputs)
+    try:
+        raw = step.evaluate(inputs)
+        value = finite(raw)
+    except ValueError as exc:
+        return None, str(exc)
+    except (ZeroDivisionError, OverflowError):
+        value = None
     if value is None:
         try:
             if raw is not None and float(raw) == math.inf:
@@ -71,7 +104,7 @@ def evaluate_chain(method: Method, obs: dict, consts: dict, missing_obs: dict | 
     """
     missing_obs = missing_obs or {}
     chain = Chain({}, {}, {})
-    with np.errstate(all="ignore"):  # once per chain: a step's NaN or inf becomes "no finite value"
+    with quiet():  # a step's NaN or inf becomes "no finite value"
         _fill(chain, method, obs, consts, missing_obs)
     return chain
 
@@ -94,7 +127,7 @@ def evaluate_downstream(method: Method, base: dict, obs: dict, consts: dict, aff
     """
     values = dict(base)
     step_ids = method.step_ids
-    with np.errstate(all="ignore"):
+    with quiet():
         for step in method.steps:
             if step.id not in affected:
                 continue

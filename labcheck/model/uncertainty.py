@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 
-from labcheck.model.chain import downstream, evaluate_chain, evaluate_downstream
+from labcheck.model.chain import downstream, evaluate_chain, evaluate_downstream, quiet
 from labcheck.methods import Method
 
 __all__ = ["propagate"]
@@ -39,6 +39,11 @@ def propagate(method: Method, obs: dict, consts: dict, obs_sigma: dict, const_si
     averaged into the value.  ``base`` is the chain already evaluated at ``obs`` and ``consts``
     (``evaluate_chain(...).expected``), when the caller has it.
     """
+    with quiet():  # one error state for every perturbed evaluation below
+        return _propagate(method, obs, consts, obs_sigma, const_sigma, counts, bound, base)
+
+
+def _propagate(method, obs, consts, obs_sigma, const_sigma, counts, bound, base) -> dict:
     counts = {} if bound else (counts or {})
     if base is None:
         base = evaluate_chain(method, obs, consts).expected
