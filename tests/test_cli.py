@@ -224,16 +224,16 @@ def test_help_has_an_example(command, capsys):
 
 
 def test_a_crash_on_one_file_does_not_stop_the_batch(tmp_path, monkeypatch, capsys):
-    import labcheck.run.batch as batch
+    import labcheck.run.check as check  # where a batch grades each file (labcheck check's own path)
 
-    real = batch.grade_submission
+    real = check.grade_submission
 
     def flaky(sub, spec):
         if sub.source.endswith("b.csv"):
             raise RuntimeError("simulated bug")
         return real(sub, spec)
 
-    monkeypatch.setattr(batch, "grade_submission", flaky)
+    monkeypatch.setattr(check, "grade_submission", flaky)
     (tmp_path / "in").mkdir()
     for name, sid in (("a.csv", "s1"), ("b.csv", "s2"), ("c.csv", "s3")):
         (tmp_path / "in" / name).write_bytes(csv_bytes(good_dip_rows(sid=sid)))

@@ -30,16 +30,16 @@ from typing import Callable
 
 from labcheck import __version__
 from labcheck.grading.adjust import apply_adjustments
-from labcheck.grading.grade import grade_submission, missing_record, safe_id, unreadable_record
+from labcheck.grading.grade import missing_record, safe_id, unreadable_record
 from labcheck.grading.integrity import CAVEAT, P_LEAD, collect_evidence, find_leads
 from labcheck.reading.identity import KEEP_POLICIES, Roster, keep_rank, reconcile
 from labcheck.reading.ingest import InputError, Limits, RawSubmission, Skipped, Unparsed, iter_submissions, read_roster
-from labcheck.grading.labmatch import wrong_lab_message
 from labcheck.report.outputs import GradebookWriter, ResultsWriter, gradebook_row, record_json, run_time
 from labcheck.report.render import Renderer
 from labcheck.report.words import worded
+from labcheck.run.check import record_of
 from labcheck.model.spec import LabSpec
-from labcheck.reading.submission import normalise, observation_keys, result_keys
+from labcheck.reading.submission import observation_keys, result_keys
 
 __all__ = ["OutputExistsError", "OutputWriteError", "RunSummary", "grade_section", "count_inputs", "OUTPUT_NAMES",
            "EXIT_OK", "EXIT_INCOMPLETE", "EXIT_USAGE", "EXIT_LABCHECK_FAILED", "recover_output", "sheet_file_name"]
@@ -298,7 +298,7 @@ class _FileGrader:
         self.spec = spec
         self.assigned = assigned or {}
         self.renderer = Renderer(spec, generated)
-        self.obs_keys, self.res_keys = observation_keys(spec), result_keys(spec)
+        self.keys = (observation_keys(spec), result_keys(spec))
         self.roster = roster
 
     def grade(self, item) -> _Graded:
@@ -307,17 +307,7 @@ class _FileGrader:
         try:
             if isinstance(item, Unparsed):
                 item = item.parse()
-            if item.error:
-                record = unreadable_record(item.source, item.error)
-            else:
-                sub = normalise(item, spec, self.obs_keys, self.res_keys)
-                wrong = wrong_lab_message(sub, spec)
-                if wrong:
-                    record = unreadable_record(item.source, wrong)
-                    record.update(status="wrong_lab", student_id=sub.identity.get("student_id", ""),
-                                  name=sub.identity.get("name", ""))
-                else:
-                    record = grade_submission(sub, spec)
+            record = record_of(item, spec, self.keys)  # the same reading and grading as labcheck check
             _identify(record, item.source, self.roster, self.assigned)
             record = worded(record)  # grading's values and sentences, worded once for every output
             record["sheet"] = None

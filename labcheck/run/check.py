@@ -8,14 +8,14 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from labcheck.grading.grade import grade_submission
+from labcheck.grading.grade import grade_submission, unreadable_record
 from labcheck.grading.labmatch import wrong_lab_message
 from labcheck.model.spec import LabSpec
-from labcheck.reading.ingest import Limits, read_rows
+from labcheck.reading.ingest import Limits, RawSubmission, read_rows
 from labcheck.reading.submission import normalise
 from labcheck.report.words import worded
 
-__all__ = ["Checked", "check_bytes"]
+__all__ = ["Checked", "check_bytes", "record_of"]
 
 
 @dataclass
@@ -25,13 +25,24 @@ class Checked:
     record: dict | None
 
 
-def check_bytes(spec: LabSpec, data: bytes, name: str, limits: Limits = Limits()) -> Checked:
-    """Grade one file's bytes; ``name`` (its file name) tells CSV from XLSX."""
-    raw = read_rows(data, name, limits)
+def record_of(raw: RawSubmission, spec: LabSpec, keys: tuple | None = None) -> dict:
+    """The record of one read file, before identity and wording: ``unreadable``, ``wrong_lab`` (another lab's
+    template) or ``graded``.  ``keys`` are the spec's observation and result keys, when the caller has them."""
     if raw.error:
-        return Checked("unreadable", raw.error, None)
-    sub = normalise(raw, spec)
+        return unreadable_record(raw.source, raw.error)
+    sub = normalise(raw, spec, *keys) if keys else normalise(raw, spec)
     wrong = wrong_lab_message(sub, spec)
     if wrong:
-        return Checked("wrong_lab", wrong, None)
-    return Checked("graded", None, worded(grade_submission(sub, spec)))
+        record = unreadable_record(raw.source, wrong)
+        record.update(status="wrong_lab", student_id=sub.identity.get("student_id", ""),
+                      name=sub.identity.get("name", ""))
+        return record
+    return grade_submission(sub, spec)
+
+
+def check_bytes(spec: LabSpec, data: bytes, name: str, limits: Limits = Limits()) -> Checked:
+    """Grade one file's bytes; ``name`` (its file name) tells CSV from XLSX."""
+    record = record_of(read_rows(data, name, limits), spec)
+    if record["status"] != "graded":
+        return Checked(record["status"], record["error"], None)
+    return Checked("graded", None, worded(record))
