@@ -381,10 +381,12 @@ class Course:
                 db.execute("INSERT INTO results VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                            _result_row(run_id, n, rec, rec.get("submission") not in superseded,
                                        leads.get(rec.get("student_id") or "", 0)))
+            counted: dict[str, dict] = {}
+            for r in records:
+                if r.get("student_id") and r.get("submission") not in superseded:
+                    counted.setdefault(r["student_id"], r)
             for sid, items in adjustments.items():
-                rec = next((r for r in records if r.get("student_id") == sid and r.get("submission") not in superseded),
-                           None)
-                applied = worded(apply_adjustments(rec or {"status": "missing"}, items)) or {"items": []}
+                applied = worded(apply_adjustments(counted.get(sid, {"status": "missing"}), items)) or {"items": []}
                 for item in applied["items"]:
                     db.execute("INSERT INTO run_adjustments VALUES (?, ?, ?, ?, ?)",
                                (run_id, item["id"], int(item["applied"]), int(item["changed"]), item["change"]))
@@ -487,7 +489,7 @@ class Course:
 
     def adjusted(self, lab_id: str, row: sqlite3.Row) -> dict | None:
         """A current result with today's active adjustments applied (None when it has none)."""
-        mine = [a for a in self.adjustments(lab_id) if a["student_id"] == row["student_id"]]
+        mine = self._adjustments_by_student(lab_id).get(row["student_id"])
         return worded(apply_adjustments(_record(row), mine)) if mine else None
 
     # ------------------------------------------------------------ identity decisions
@@ -675,6 +677,7 @@ class Course:
         made = []
         generated = run_time().strftime("%Y-%m-%d %H:%M UTC")
         wanted = None if students is None else {self.find_student(s).student_id for s in students}
+        active = self._adjustments_by_student(lab_id)  # today's, read once for every sheet
         pages: list = []
         pool = None
         import multiprocessing
@@ -692,9 +695,8 @@ class Course:
                     raise CourseError(f"run {row['run_id']}'s spec text is not in the record")
                 renderers[row["run_id"]] = Renderer(spec, generated, page_size=page_size)
             record = _record(row)
-            adj = self.adjusted(lab_id, row)
-            if adj:
-                record["adjustments"] = adj
+            if active.get(sid):
+                record["adjustments"] = worded(apply_adjustments(record, active[sid]))
             name = sheet_file_name(sid, used)[: -len(".html")] + ".pdf"
             html = renderers[row["run_id"]].sheet(record)
             made.append(name)

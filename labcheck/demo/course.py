@@ -165,7 +165,8 @@ def _widened(spec_text: str, step: str, tolerance: str) -> str:
 
 def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDemo:
     """Build the course and take it through every step; returns what happened and where."""
-    from labcheck.course.record import Course
+    from labcheck.course.record import Course, _record
+    from labcheck.grading.adjust import step_state
     from labcheck.reading.ingest import read_roster
     from labcheck.base.resources import shipped_spec
     from labcheck.model.spec import load_spec
@@ -192,8 +193,8 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
 
         # Two adjustments: a step of the dip lab (the student whose mean has two digits swapped), the taped lab's total.
         current = course.current_results("horizon_dip")
-        target = next((sid for sid, row in sorted(current.items())
-                       if row["status"] == "graded" and _step(row, "dip_mean") == "wrong"), None)
+        target = next((sid for sid, row in sorted(current.items()) if row["status"] == "graded"
+                       and (step_state(_record(row), "dip_mean") or (None,))[0] == "wrong"), None)
         if target is None:
             demo.problems.append("no dip student with a wrong dip_mean to adjust")
         else:
@@ -231,11 +232,3 @@ def run_course_demo(folder: Path, jobs: int = 1, pdfs: bool = True) -> CourseDem
             demo.pdf_pages = [course.pages[n] for n in names]
     return demo
 
-
-def _step(row, step_id: str) -> str | None:
-    from labcheck.course.record import _record
-
-    for s in _record(row).get("steps", []):
-        if s["id"] == step_id:
-            return s["verdict"]
-    return None

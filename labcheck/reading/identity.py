@@ -130,7 +130,8 @@ class Roster:
             self._by_key[key] = e
             self._by_exact[e.student_id] = e
         self._names = None
-        self._by_path = None
+        # path tokens must carry the id's own digits: keyed without dropping leading zeros (see in_path)
+        self._by_path = {normalise_id(e.student_id): e for e in self._by_exact.values()}
 
     def __len__(self) -> int:
         return len(self.entries)
@@ -155,8 +156,6 @@ class Roster:
         only case aside), so that a date's ``03`` or ``10`` in a folder name never finds student 3 or 10 of
         a numeric roster.
         """
-        if self._by_path is None:
-            self._by_path = {normalise_id(e.student_id): e for e in self.entries}
         hits = {}
         for part in PurePosixPath(source).parts:
             for token in {part, *(_TOKEN_SPLIT.split(part))}:

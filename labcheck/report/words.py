@@ -75,19 +75,11 @@ def worded(obj):
     for each submission), and returned; other values are kept as they are.  Walked with plain type tests:
     a taped baseline's record has about a thousand values."""
     t = type(obj)
-    if t is dict:
-        for k, v in obj.items():
+    if t is dict or t is list:
+        for k, v in (obj.items() if t is dict else enumerate(obj)):
             tv = type(v)
             if tv in _TYPE_SET:
                 obj[k] = word(v)
-            elif tv is dict or tv is list:
-                worded(v)
-        return obj
-    if t is list:
-        for i, v in enumerate(obj):
-            tv = type(v)
-            if tv in _TYPE_SET:
-                obj[i] = word(v)
             elif tv is dict or tv is list:
                 worded(v)
         return obj
