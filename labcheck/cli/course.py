@@ -6,7 +6,6 @@ options, prints what happened and where, and returns the exit status.
 
 from __future__ import annotations
 
-import csv
 import sys
 from pathlib import Path
 
@@ -76,50 +75,13 @@ def cmd_grade(args) -> int:
     return run.exit_code
 
 
-MAX_ADJUSTMENT_FILE_BYTES = 5_000_000  # 50,000 adjustments of 100 characters
-
-
-def _adjust_rows(path: str) -> list[dict]:
-    """The CSV form: columns student_id, lab, step (may be blank), points, reason."""
-    from labcheck.reading.ingest import InputError
-
-    try:
-        if Path(path).stat().st_size > MAX_ADJUSTMENT_FILE_BYTES:
-            raise InputError(f"{path}: over {MAX_ADJUSTMENT_FILE_BYTES // 1_000_000} MB; is it the adjustments file?")
-        with open(path, newline="", encoding="utf-8-sig") as fh:
-            sample = fh.read(4096)
-            fh.seek(0)
-            delim = max(",;\t", key=sample.split("\n", 1)[0].count)
-            reader = csv.DictReader(fh, delimiter=delim)
-            fields = {(f or "").strip().lower() for f in reader.fieldnames or []}
-            need = {"student_id", "lab", "points", "reason"}
-            if not need <= fields:
-                raise InputError(f"{path}: an adjustments file needs the columns student_id, lab, step, points, "
-                                 f"reason; missing {', '.join(sorted(need - fields))}")
-            rows = []
-            for n, row in enumerate(reader, start=2):
-                clean = {(k or "").strip().lower(): (v or "").strip() for k, v in row.items() if k}
-                if not any(clean.values()):
-                    continue
-                try:
-                    points = float(clean["points"])
-                except ValueError:
-                    raise InputError(f"{path}: row {n}: points {clean['points']!r} is not a number") from None
-                rows.append({"row": n, "student": clean["student_id"], "lab": clean["lab"],
-                             "step": clean.get("step") or None, "points": points, "reason": clean["reason"]})
-            return rows
-    except OSError as exc:
-        raise InputError(f"{path}: cannot read it: {exc.strerror or exc}") from None
-    except UnicodeDecodeError:
-        raise InputError(f"{path}: not UTF-8 text; save it as 'CSV UTF-8'") from None
-
-
 def cmd_adjust(args) -> int:
     from labcheck.course.record import CourseError
+    from labcheck.reading.ingest import read_adjustments
 
     with _open(args.dir) as course:
         if args.file:
-            rows = _adjust_rows(args.file)
+            rows = read_adjustments(args.file)
             done = []
             for r in rows:  # each is its own transaction: a bad row is named, the ones before it stay made
                 try:
@@ -268,7 +230,7 @@ def cmd_history(args) -> int:
     return 0
 
 
-def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
+def add_course_parser(sub, fmt, jobs_option, roster_options, column_options) -> None:
     """The ``course`` command and its sub-commands."""
     p = sub.add_parser("course", help="keep a course record: roster, labs, runs, adjustments, export, PDFs",
                        formatter_class=fmt, epilog=EXAMPLES,
@@ -283,8 +245,7 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("--roster", required=True, metavar="FILE", help="roster CSV (an LMS export will do)")
     q.add_argument("--section", metavar="NAME", help="the section these students are in")
     q.add_argument("--title", metavar="TEXT", help="the course's name (default: the folder's)")
-    q.add_argument("--id-column", metavar="HEADING")
-    q.add_argument("--name-column", metavar="HEADING")
+    column_options(q)
     q.set_defaults(func=cmd_new)
 
     q = cs.add_parser("roster", help="add students, or update names and sections", formatter_class=fmt)
@@ -293,8 +254,7 @@ def add_course_parser(sub, fmt, jobs_option, roster_options) -> None:
     q.add_argument("--section", metavar="NAME")
     q.add_argument("--replace", action="store_true",
                    help="students of --section who are not in FILE are marked dropped (kept in the record)")
-    q.add_argument("--id-column", metavar="HEADING")
-    q.add_argument("--name-column", metavar="HEADING")
+    column_options(q)
     q.set_defaults(func=cmd_roster)
 
     q = cs.add_parser("grade", help="grade a lab into the course (every run kept; the latest is current)",

@@ -286,12 +286,16 @@ def _jobs_option(p) -> None:
                    help=f"grade in N processes (default: this machine's {cores} cores); the outputs are the same for any N")
 
 
+def _column_options(p) -> None:
+    p.add_argument("--id-column", metavar="HEADING", help="the roster column holding student ids (default: found)")
+    p.add_argument("--name-column", metavar="HEADING", help="the roster column holding names (default: found)")
+
+
 def _roster_options(p, roster: bool = True) -> None:
     if roster:
         p.add_argument("--roster", metavar="FILE",
                        help="roster CSV (an LMS export will do: its id and name columns are found by their headings)")
-    p.add_argument("--id-column", metavar="HEADING", help="the roster column holding student ids (default: found)")
-    p.add_argument("--name-column", metavar="HEADING", help="the roster column holding names (default: found)")
+        _column_options(p)
     p.add_argument("--keep", choices=("latest", "earliest", "best"), default="latest",
                    help="of several files from one student, the one counted (default: latest, by the export's "
                         "time stamp, else the file's time)")
@@ -368,7 +372,7 @@ def build_parser() -> argparse.ArgumentParser:
 
     from labcheck.cli.course import add_course_parser
 
-    add_course_parser(sub, fmt, _jobs_option, _roster_options)
+    add_course_parser(sub, fmt, _jobs_option, _roster_options, _column_options)
     return parser
 
 

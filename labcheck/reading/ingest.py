@@ -44,6 +44,7 @@ __all__ = [
     "iter_submissions",
     "read_rows",
     "read_roster",
+    "read_adjustments",
     "COLUMNS",
     "SUBMISSION_SUFFIXES",
 ]
@@ -618,3 +619,40 @@ def read_roster(path: str | Path, id_column: str | None = None, name_column: str
         return Roster(entries)
     except RosterError as exc:
         raise InputError(f"{p}: {exc}") from None
+
+
+MAX_ADJUSTMENT_FILE_BYTES = 5_000_000  # 50,000 adjustments of 100 characters
+
+
+def read_adjustments(path: str | Path) -> list[dict]:
+    """The instructor's adjustments as a CSV (``labcheck course adjust --file``): columns student_id, lab,
+    step (may be blank), points, reason; ``,`` ``;`` or tab; UTF-8.  One dict per row, with its row number."""
+    try:
+        if Path(path).stat().st_size > MAX_ADJUSTMENT_FILE_BYTES:
+            raise InputError(f"{path}: over {MAX_ADJUSTMENT_FILE_BYTES // 1_000_000} MB; is it the adjustments file?")
+        with open(path, newline="", encoding="utf-8-sig") as fh:
+            sample = fh.read(4096)
+            fh.seek(0)
+            delim = max(",;\t", key=sample.split("\n", 1)[0].count)
+            reader = csv.DictReader(fh, delimiter=delim)
+            fields = {(f or "").strip().lower() for f in reader.fieldnames or []}
+            need = {"student_id", "lab", "points", "reason"}
+            if not need <= fields:
+                raise InputError(f"{path}: an adjustments file needs the columns student_id, lab, step, points, "
+                                 f"reason; missing {', '.join(sorted(need - fields))}")
+            rows = []
+            for n, row in enumerate(reader, start=2):
+                clean = {(k or "").strip().lower(): (v or "").strip() for k, v in row.items() if k}
+                if not any(clean.values()):
+                    continue
+                try:
+                    points = float(clean["points"])
+                except ValueError:
+                    raise InputError(f"{path}: row {n}: points {clean['points']!r} is not a number") from None
+                rows.append({"row": n, "student": clean["student_id"], "lab": clean["lab"],
+                             "step": clean.get("step") or None, "points": points, "reason": clean["reason"]})
+            return rows
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read it: {exc.strerror or exc}") from None
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not UTF-8 text; save it as 'CSV UTF-8'") from None
