@@ -414,5 +414,8 @@ def test_export_points_possible_row(tmp_path, inputs, dip_spec):
     course.grade(dip_spec, [inputs.inputs["horizon_dip"]])
     maxima = {r["max_score"] for r in course.current_results("horizon_dip").values() if r["status"] == "graded"}
     assert len(maxima) > 1  # the demo has groups that did one method or both
+    before = out.read_bytes()
     with pytest.raises(CourseError, match="different maximum scores"):
         course.write_export(out, points_possible=True)
+    # refused part-way through writing: the previous export is whole and no partial file is left beside it
+    assert out.read_bytes() == before and sorted(p.name for p in tmp_path.glob("pp.csv*")) == ["pp.csv"]

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import csv
 import json
+import os
 import sqlite3
 import zipfile
 import zlib
@@ -633,18 +634,24 @@ class Course:
         head = [id_header] + ([name_header] if name_header else []) + (["section"] if with_section else []) + \
             [headers.get(lab, lab) for lab in wanted]
         tmp = path.with_name(path.name + ".part")
-        with open(tmp, "w", encoding="utf-8", newline="") as fh:
-            w = csv.writer(fh, delimiter=sep, quoting=csv.QUOTE_ALL)
-            w.writerow([neutralise_cell(h) for h in head])
-            if points_possible:  # the row some LMS imports read each column's maximum from
-                w.writerow(["Points Possible"] + [""] * (len(head) - len(wanted) - 1) +
-                           [f"{self._points_possible(lab, as_percent):g}" for lab in wanted])
-            for row in rows:
-                e = row["student"]
-                cells = [e.student_id] + ([e.name] if name_header else []) + ([e.section] if with_section else [])
-                w.writerow([neutralise_cell(c) for c in cells] +
-                           ["" if row[lab] is None else f"{row[lab]:g}" for lab in wanted])
-        tmp.replace(path)
+        try:
+            with open(tmp, "w", encoding="utf-8", newline="") as fh:
+                w = csv.writer(fh, delimiter=sep, quoting=csv.QUOTE_ALL)
+                w.writerow([neutralise_cell(h) for h in head])
+                if points_possible:  # the row some LMS imports read each column's maximum from
+                    w.writerow(["Points Possible"] + [""] * (len(head) - len(wanted) - 1) +
+                               [f"{self._points_possible(lab, as_percent):g}" for lab in wanted])
+                for row in rows:
+                    e = row["student"]
+                    cells = [e.student_id] + ([e.name] if name_header else []) + ([e.section] if with_section else [])
+                    w.writerow([neutralise_cell(c) for c in cells] +
+                               ["" if row[lab] is None else f"{row[lab]:g}" for lab in wanted])
+                fh.flush()
+                os.fsync(fh.fileno())
+            tmp.replace(path)  # the previous export stays whole until the new one is
+        except BaseException:
+            tmp.unlink(missing_ok=True)
+            raise
         self._log("export", {"file": str(path), "rows": len(rows), "labs": wanted, "percent": as_percent})
         return len(rows), wanted
 
@@ -711,10 +718,14 @@ class Course:
                 pool.shutdown(cancel_futures=True)
         bundle = out / f"feedback-{lab_id}.zip"
         part = out / f"feedback-{lab_id}.zip.part"
-        with zipfile.ZipFile(part, "w", zipfile.ZIP_DEFLATED) as zf:
-            for name in made:
-                zf.write(out / name, name)
-        part.replace(bundle)
+        try:
+            with zipfile.ZipFile(part, "w", zipfile.ZIP_DEFLATED) as zf:
+                for name in made:
+                    zf.write(out / name, name)
+            part.replace(bundle)
+        except BaseException:
+            part.unlink(missing_ok=True)
+            raise
         return made, bundle
 
     def history(self) -> list[sqlite3.Row]:
