@@ -382,13 +382,23 @@ def _worker_grade(item: RawSubmission) -> _Graded:
     return _WORKER.grade(item)
 
 
+def _worker_grade_chunk(items: list) -> list:
+    """Several files graded in one task (None for a skipped one): one pipe message and one wake-up each way
+    for the chunk, not for every file."""
+    return [None if isinstance(item, Skipped) else _WORKER.grade(item) for item in items]
+
+
 class _Pool:
     """Files graded in worker processes, results handed back in input order, a bounded number in flight.
 
-    A worker that dies (a crash in C code, the OOM killer) breaks the pool: every file then in flight is
-    graded again alone in a fresh one-worker pool, so a file that kills its worker becomes that file's
-    ``error`` record and costs no other file (issue 8's isolation, across processes).
+    Files go to the workers in chunks of a few (:data:`CHUNK`): a task per file cost about 1 ms of
+    futures, locks, pipe wake-ups and context switches, as much as grading a small file.  A worker that
+    dies (a crash in C code, the OOM killer) breaks the pool: every file then in flight is graded again
+    alone in a fresh one-worker pool, so a file that kills its worker becomes that file's ``error``
+    record and costs no other file (issue 8's isolation, across processes).
     """
+
+    CHUNK = 8
 
     def __init__(self, jobs: int, spec: LabSpec, roster, generated: str, assigned=None):
         import concurrent.futures as cf
@@ -398,55 +408,63 @@ class _Pool:
         self._args = (spec.source, spec.path, roster, generated, assigned or {})
         self._context = multiprocessing.get_context("spawn" if sys.platform == "win32" else "fork")
         self.jobs = jobs
-        self.window = 8 * jobs
+        self.window = 2 * jobs  # chunks in flight: each worker has the next one waiting
         self._executor = self._new(jobs)
 
     def _new(self, workers: int):
         return self._cf.ProcessPoolExecutor(workers, mp_context=self._context, initializer=_worker_init,
                                             initargs=self._args)
 
+    def _chunks(self, items):
+        chunk = []
+        for item in items:
+            chunk.append(item)
+            if len(chunk) == self.CHUNK:
+                yield chunk
+                chunk = []
+        if chunk:
+            yield chunk
+
     def map(self, items):
-        """Yield (item, _Graded) in input order."""
+        """Yield (item, _Graded or None for a skipped file) in input order."""
         from collections import deque
 
         pending: deque = deque()
-        iterator = iter(items)
+        chunks = self._chunks(items)
         exhausted = False
         while True:
             while not exhausted and len(pending) < self.window:
-                try:
-                    item = next(iterator)
-                except StopIteration:
+                chunk = next(chunks, None)
+                if chunk is None:
                     exhausted = True
                     break
-                pending.append((item, self._submit(item)))
+                pending.append((chunk, self._submit(chunk)))
             if not pending:
                 return
-            item, future = pending.popleft()
-            yield item, self._result(item, future, pending)
+            chunk, future = pending.popleft()
+            yield from zip(chunk, self._result(chunk, future, pending))
 
-    def _submit(self, item):
-        if isinstance(item, Skipped):
-            return None
+    def _submit(self, chunk):
         try:
-            return self._executor.submit(_worker_grade, item)
+            return self._executor.submit(_worker_grade_chunk, chunk)
         except self._cf.process.BrokenProcessPool:
             self._executor = self._new(self.jobs)
-            return self._executor.submit(_worker_grade, item)
+            return self._executor.submit(_worker_grade_chunk, chunk)
 
-    def _result(self, item, future, pending):
-        if future is None:
-            return None
+    def _result(self, chunk, future, pending) -> list:
         try:
             return future.result()
         except self._cf.process.BrokenProcessPool:
-            # Re-grade this file and every other one in flight alone; then carry on with a fresh pool.
-            graded = self._alone(item)
+            # Grade this chunk's files and every other one in flight alone; then carry on with a fresh pool.
+            graded = self._each_alone(chunk)
             for i, (other, _) in enumerate(pending):
-                pending[i] = (other, _Done(self._alone(other)) if not isinstance(other, Skipped) else None)
+                pending[i] = (other, _Done(self._each_alone(other)))
             self._executor.shutdown(wait=False, cancel_futures=True)
             self._executor = self._new(self.jobs)
             return graded
+
+    def _each_alone(self, chunk) -> list:
+        return [None if isinstance(item, Skipped) else self._alone(item) for item in chunk]
 
     def _alone(self, item) -> _Graded:
         with self._new(1) as solo:
