@@ -1,0 +1,40 @@
+"""The sheets' template environment: its quick dict lookup means what jinja2's own lookup means."""
+
+import jinja2
+import pytest
+
+from labcheck.base.resources import shipped_spec
+from labcheck.model.spec import load_spec
+from labcheck.report.render import Renderer
+
+
+@pytest.fixture(scope="module")
+def env():
+    return Renderer(load_spec(shipped_spec("horizon_dip")), "2026-01-01 00:00 UTC").env
+
+
+def test_a_dict_key_is_found_and_escaped(env):
+    out = env.from_string("{{ x.name }}|{{ x['name'] }}").render(x={"name": "<b>Ann</b>"})
+    assert out == "&lt;b&gt;Ann&lt;/b&gt;|&lt;b&gt;Ann&lt;/b&gt;"
+
+
+def test_a_missing_key_is_still_an_error(env):
+    # StrictUndefined: a template naming a key the view model lacks fails loudly, as with jinja2's lookup.
+    with pytest.raises(jinja2.UndefinedError):
+        env.from_string("{{ x.nothing }}").render(x={"name": "Ann"})
+
+
+def test_dict_methods_keep_jinja2s_meaning(env):
+    # A name that is an attribute of dict (items, get…) is looked up as jinja2 does: attribute first.
+    out = env.from_string("{% for k, v in x.items() %}{{ k }}={{ v }};{% endfor %}{{ x.get('a') }}")
+    assert out.render(x={"a": 1, "items": "not this"}) == "a=1;items=not this;1"
+
+
+def test_other_objects_keep_jinja2s_lookup(env):
+    class Thing:
+        name = "attr"
+
+        def __getitem__(self, key):
+            return "item"
+
+    assert env.from_string("{{ t.name }} {{ t.other }}").render(t=Thing()) == "attr item"
