@@ -1,4 +1,4 @@
-"""labcheck's streaming XLSX reader reads exactly the cells openpyxl reads (issue 12).
+"""labcheck's XLSX reader, parsing parts whole or streamed, reads exactly the cells openpyxl reads (issue 12).
 
 The reference is openpyxl's read-only, data_only reader with labcheck's former cell-to-text rule,
 kept here.  Workbooks: every group of every demo section, every shipped lab's blank template, and a
@@ -66,6 +66,16 @@ def _strip_trailing_empty_rows(rows):
     return rows
 
 
+@pytest.fixture(params=["tree", "streamed"])
+def mode(request, monkeypatch):
+    """Both ways the reader parses a part: whole (a small part) and streamed (one over TREE_BYTES)."""
+    from labcheck.reading import xlsx
+
+    if request.param == "streamed":
+        monkeypatch.setattr(xlsx, "TREE_BYTES", 0)
+    return request.param
+
+
 def _workbooks():
     for section in SECTIONS:
         for group in section.generate():
@@ -73,19 +83,19 @@ def _workbooks():
 
 
 @pytest.mark.parametrize("name, data", list(_workbooks()), ids=lambda x: x if isinstance(x, str) else "")
-def test_demo_workbooks_read_the_same(name, data):
+def test_demo_workbooks_read_the_same(name, data, mode):
     assert _strip_trailing_empty_rows(_ours(data)) == _strip_trailing_empty_rows(_openpyxl_rows(data))
 
 
 @pytest.mark.parametrize("spec_file", sorted(specs_dir().glob("*.toml")), ids=lambda p: p.stem)
-def test_blank_templates_read_the_same(tmp_path, spec_file):
+def test_blank_templates_read_the_same(tmp_path, spec_file, mode):
     out = tmp_path / "t.xlsx"
     write_template(load_spec(spec_file), out)
     data = out.read_bytes()
     assert _strip_trailing_empty_rows(_ours(data)) == _strip_trailing_empty_rows(_openpyxl_rows(data))
 
 
-def test_every_cell_type_reads_the_same(tmp_path):
+def test_every_cell_type_reads_the_same(tmp_path, mode):
     wb = openpyxl.Workbook()
     ws = wb.active
     ws.append(["part", "item", "value", "unit", "note"])
@@ -115,7 +125,7 @@ def test_every_cell_type_reads_the_same(tmp_path):
     assert _ours(data, 1) == _openpyxl_rows(data, 1)
 
 
-def test_a_hostile_entity_expansion_is_refused():
+def test_a_hostile_entity_expansion_is_refused(mode):
     # "Billion laughs" in a worksheet part: expat (≥ 2.4) refuses the amplification; the file is unreadable,
     # quickly, and nothing escapes (the tests of issue 8 cover the other XML faults).
     data = xlsx_bytes([("observation", "eye_height", "12.5", "m")])

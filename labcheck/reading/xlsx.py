@@ -2,9 +2,11 @@
 
 An XLSX workbook is a zip of XML parts (ECMA-376 Part 1, §18: SpreadsheetML).  This reader parses
 only what a submission needs: the workbook's sheet list and relationships, the shared strings, the
-number formats that mark a cell as a date, and one worksheet's rows, streamed with the standard
-library's expat parser (``xml.etree.ElementTree.iterparse``, which never fetches external entities;
-expat ≥ 2.4 bounds entity expansion).  Cells are converted as openpyxl's read-only, ``data_only``
+number formats that mark a cell as a date, and one worksheet's rows, with the standard library's expat
+parser (``xml.etree.ElementTree``, which never fetches external entities; expat ≥ 2.4 bounds entity
+expansion).  A part of up to :data:`TREE_BYTES` is parsed whole in C and kept for the book's later
+reads; a larger one is streamed (``iterparse``), which stops at the row cap: a Python step per XML
+element made a small workbook cost about 2 ms, ten times a CSV.  Cells are converted as openpyxl's read-only, ``data_only``
 reader converts them (tests/test_xlsx.py checks the two agree on every workbook the tests and the
 demo make), but without building style objects for every cell: about 20 times faster.
 
@@ -16,7 +18,7 @@ from __future__ import annotations
 import re
 import zipfile
 from datetime import datetime, timedelta
-from xml.etree.ElementTree import ParseError, iterparse
+from xml.etree.ElementTree import ParseError, XMLParser, iterparse
 
 __all__ = ["XlsxError", "UNSAVED_FORMULA", "Book"]
 
@@ -27,6 +29,7 @@ _WORKSHEET_TYPE = "/worksheet"
 UNSAVED_FORMULA = "\x00unsaved-formula\x00"  # cannot come from a cell: XML forbids NUL
 
 # Built-in number formats that show dates or times (ECMA-376 Part 1, §18.8.30): 14-22 and 45-47.
+TREE_BYTES = 1 << 20  # parts up to 1 MiB unpacked are parsed whole (a submission's are a few KiB)
 _BUILTIN_DATE_FORMATS = frozenset(range(14, 23)) | {45, 46, 47}
 _QUOTED = re.compile(r'"[^"]*"|\[[^\]]*\]|\\.|_.|\*.')
 _DATE_CHARS = re.compile(r"[dmyhs]", re.IGNORECASE)
@@ -41,72 +44,126 @@ def _is_date_format(code: str) -> bool:
     return bool(_DATE_CHARS.search(_QUOTED.sub("", code.split(";")[0])))
 
 
-def _parse(zf: zipfile.ZipFile, name: str):
-    try:
-        with zf.open(name) as fh:
-            yield from iterparse(fh, events=("end",))
-    except KeyError:
-        raise XlsxError(f"the workbook has no part {name}") from None
-    except (ParseError, zipfile.BadZipFile, EOFError, OSError, ValueError) as exc:
-        raise XlsxError(f"the workbook's part {name} cannot be read ({type(exc).__name__})") from None
+def _failed(name: str, exc: Exception) -> XlsxError:
+    return XlsxError(f"the workbook's part {name} cannot be read ({type(exc).__name__})")
 
 
-def sheet_names(zf: zipfile.ZipFile) -> list[tuple[str, str]]:
+class _Parts:
+    """The workbook's XML parts, each parsed at most once: small ones whole, large ones streamed."""
+
+    def __init__(self, zf: zipfile.ZipFile):
+        self.zf = zf
+        self.sizes = {i.filename: i.file_size for i in zf.infolist()}
+        self._trees: dict = {}
+
+    def __contains__(self, name: str) -> bool:
+        return name in self.sizes
+
+    def tree(self, name: str):
+        """The part's root element, or None when the part is too large to hold whole."""
+        if name not in self.sizes:
+            raise XlsxError(f"the workbook has no part {name}")
+        if self.sizes[name] > TREE_BYTES:
+            return None
+        if name not in self._trees:
+            try:
+                with self.zf.open(name) as fh:
+                    data = fh.read(TREE_BYTES + 1)
+                if len(data) > TREE_BYTES:  # the directory understated the size
+                    return None
+                parser = XMLParser()
+                parser.feed(data)
+                self._trees[name] = parser.close()
+            except (ParseError, zipfile.BadZipFile, EOFError, OSError, ValueError) as exc:
+                raise _failed(name, exc) from None
+        return self._trees[name]
+
+    def elements(self, name: str, tag: str):
+        """The part's complete elements named ``tag``, in document order (not nested in one another).
+
+        Streamed elements are cleared once the caller has them: take what you need before the next.
+        """
+        root = self.tree(name)
+        if root is not None:
+            yield from root.iter(tag)
+            return
+        try:
+            with self.zf.open(name) as fh:
+                for _, el in iterparse(fh, events=("end",)):
+                    if el.tag == tag:
+                        yield el
+                        el.clear()
+        except (ParseError, zipfile.BadZipFile, EOFError, OSError, ValueError) as exc:
+            raise _failed(name, exc) from None
+
+
+def sheet_names(parts: _Parts) -> list[tuple[str, str]]:
     """(sheet name, part name) of every worksheet, in the workbook's order (chart sheets left out)."""
     targets = {}
-    for _, el in _parse(zf, "xl/_rels/workbook.xml.rels"):
-        if el.tag == f"{_PKG_REL}Relationship" and el.get("Type", "").endswith(_WORKSHEET_TYPE):
+    for el in parts.elements("xl/_rels/workbook.xml.rels", f"{_PKG_REL}Relationship"):
+        if el.get("Type", "").endswith(_WORKSHEET_TYPE):
             target = el.get("Target", "")
             targets[el.get("Id")] = target.lstrip("/") if target.startswith("/") else f"xl/{target}"
     sheets = []
-    for _, el in _parse(zf, "xl/workbook.xml"):
-        if el.tag == f"{_MAIN}sheet":
-            part = targets.get(el.get(f"{_REL}id"))
-            if part:
-                sheets.append((el.get("name", ""), part))
+    for el in parts.elements("xl/workbook.xml", f"{_MAIN}sheet"):
+        part = targets.get(el.get(f"{_REL}id"))
+        if part:
+            sheets.append((el.get("name", ""), part))
     return sheets
 
 
-def _shared_strings(zf: zipfile.ZipFile) -> list[str]:
-    if "xl/sharedStrings.xml" not in zf.namelist():
+def _shared_strings(parts: _Parts) -> list[str]:
+    if "xl/sharedStrings.xml" not in parts:
         return []
     out = []
-    for _, el in _parse(zf, "xl/sharedStrings.xml"):
-        if el.tag == f"{_MAIN}si":
-            # The text runs of the item; phonetic guides (rPh) are not part of the value.
-            texts = [t.text or "" for t in el.iter(f"{_MAIN}t")]
-            phonetic = {id(t) for r in el.iter(f"{_MAIN}rPh") for t in r.iter(f"{_MAIN}t")}
-            out.append("".join(t.text or "" for t in el.iter(f"{_MAIN}t") if id(t) not in phonetic)
-                       if phonetic else "".join(texts))
-            el.clear()
+    for el in parts.elements("xl/sharedStrings.xml", f"{_MAIN}si"):
+        # The text runs of the item; phonetic guides (rPh) are not part of the value.
+        texts = [t.text or "" for t in el.iter(f"{_MAIN}t")]
+        phonetic = {id(t) for r in el.iter(f"{_MAIN}rPh") for t in r.iter(f"{_MAIN}t")}
+        out.append("".join(t.text or "" for t in el.iter(f"{_MAIN}t") if id(t) not in phonetic)
+                   if phonetic else "".join(texts))
     return out
 
 
-def _date_styles(zf: zipfile.ZipFile) -> tuple[set[int], bool]:
+def _date_styles(parts: _Parts) -> tuple[set[int], bool]:
     """Indices of the cell formats (cellXfs) that show dates, and whether the workbook counts from 1904."""
     custom: dict[int, str] = {}
     xfs: list[int] = []
-    if "xl/styles.xml" in zf.namelist():
-        in_cell_xfs = False
-        for event, el in iterparse(zf.open("xl/styles.xml"), events=("start", "end")):
-            if el.tag == f"{_MAIN}cellXfs":
-                in_cell_xfs = event == "start"
-            elif event == "end" and el.tag == f"{_MAIN}numFmt":
-                try:
-                    custom[int(el.get("numFmtId", "-1"))] = el.get("formatCode", "")
-                except ValueError:
-                    pass
-            elif event == "end" and el.tag == f"{_MAIN}xf" and in_cell_xfs:
-                try:
-                    xfs.append(int(el.get("numFmtId", "0")))
-                except ValueError:
-                    xfs.append(0)
+    if "xl/styles.xml" in parts:
+        root = parts.tree("xl/styles.xml")
+        if root is not None:
+            for el in root.iter(f"{_MAIN}numFmt"):
+                _custom_format(custom, el)
+            for cell_xfs in root.iter(f"{_MAIN}cellXfs"):
+                xfs.extend(_format_id(el) for el in cell_xfs.iter(f"{_MAIN}xf"))
+        else:
+            in_cell_xfs = False
+            for event, el in iterparse(parts.zf.open("xl/styles.xml"), events=("start", "end")):
+                if el.tag == f"{_MAIN}cellXfs":
+                    in_cell_xfs = event == "start"
+                elif event == "end" and el.tag == f"{_MAIN}numFmt":
+                    _custom_format(custom, el)
+                elif event == "end" and el.tag == f"{_MAIN}xf" and in_cell_xfs:
+                    xfs.append(_format_id(el))
     dates = {i for i, f in enumerate(xfs) if f in _BUILTIN_DATE_FORMATS or (f in custom and _is_date_format(custom[f]))}
     date1904 = False
-    for _, el in _parse(zf, "xl/workbook.xml"):
-        if el.tag == f"{_MAIN}workbookPr":
-            date1904 = el.get("date1904", "").lower() in ("1", "true")
+    for el in parts.elements("xl/workbook.xml", f"{_MAIN}workbookPr"):
+        date1904 = el.get("date1904", "").lower() in ("1", "true")
     return dates, date1904
+
+
+def _custom_format(custom: dict, el) -> None:
+    try:
+        custom[int(el.get("numFmtId", "-1"))] = el.get("formatCode", "")
+    except ValueError:
+        pass
+
+
+def _format_id(xf) -> int:
+    try:
+        return int(xf.get("numFmtId", "0"))
+    except ValueError:
+        return 0
 
 
 def _column_index(ref: str) -> int:
@@ -145,25 +202,26 @@ def _date_text(serial: float, date1904: bool) -> str:
 
 
 class Book:
-    """One workbook: its sheets, and its shared strings and date formats read once."""
+    """One workbook: its sheets, and its shared strings and date formats read once; each part parsed once."""
 
     def __init__(self, zf: zipfile.ZipFile):
         self.zf = zf
-        self.sheets = sheet_names(zf)
+        self.parts = _Parts(zf)
+        self.sheets = sheet_names(self.parts)
         self._strings = None
         self._dates = None
 
     def read_sheet(self, part: str, max_cols: int, max_rows: int) -> list[list[str]]:
         if self._strings is None:
-            self._strings = _shared_strings(self.zf)
+            self._strings = _shared_strings(self.parts)
             try:
-                self._dates = _date_styles(self.zf)
+                self._dates = _date_styles(self.parts)
             except (ParseError, OSError, ValueError, zipfile.BadZipFile) as exc:
                 raise XlsxError(f"the workbook's styles cannot be read ({type(exc).__name__})") from None
-        return read_sheet(self.zf, part, max_cols, max_rows, self._strings, *self._dates)
+        return read_sheet(self.parts, part, max_cols, max_rows, self._strings, *self._dates)
 
 
-def read_sheet(zf: zipfile.ZipFile, part: str, max_cols: int, max_rows: int, strings: list[str],
+def read_sheet(parts: _Parts, part: str, max_cols: int, max_rows: int, strings: list[str],
                dates: set[int], date1904: bool) -> list[list[str]]:
     """The sheet's rows as text cells, the first ``max_cols`` columns only, at most ``max_rows`` rows.
 
@@ -172,9 +230,7 @@ def read_sheet(zf: zipfile.ZipFile, part: str, max_cols: int, max_rows: int, str
     """
     rows: list[list[str]] = []
     next_row = 1
-    for _, el in _parse(zf, part):
-        if el.tag != f"{_MAIN}row":
-            continue
+    for el in parts.elements(part, f"{_MAIN}row"):
         try:
             number = int(el.get("r", next_row))
         except ValueError:
@@ -198,7 +254,6 @@ def read_sheet(zf: zipfile.ZipFile, part: str, max_cols: int, max_rows: int, str
             cells.append(_cell_text(c, strings, dates, date1904))
         rows.append(cells)
         next_row = number + 1
-        el.clear()
     return rows
 
 
