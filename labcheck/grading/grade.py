@@ -291,11 +291,37 @@ class StepTrace:
     candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
     reported_steps: frozenset  # the method's steps the student reported
 
-    def honest_values(self) -> tuple:
-        """The candidates, computed on first need (most steps match the recomputed value and never need them)."""
+    def honest_values(self):
+        """The candidates, computed on first need (most steps match the recomputed value and never need them),
+        and each only when the one before it did not match (see :class:`_Memo`)."""
         if callable(self.candidates):
-            self.candidates = tuple(self.candidates())
+            self.candidates = _Memo(self.candidates())
         return self.candidates
+
+
+class _Memo:
+    """A sequence computed as far as it is read, and kept: :func:`judge` stops at the first honest value
+    that matches (the rest are never computed), and ``labcheck tune`` reads on where it needs to."""
+
+    def __init__(self, items):
+        self._items = iter(items)
+        self._done: list = []
+
+    def __iter__(self):
+        i = 0
+        while True:
+            if i < len(self._done):
+                yield self._done[i]
+            else:
+                item = next(self._items, _END)
+                if item is _END:
+                    return
+                self._done.append(item)
+                yield item
+            i += 1
+
+
+_END = object()
 
 
 def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]:
@@ -421,17 +447,18 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
 _MAX_COMBINATIONS = 81
 
 
-def _candidates(run: _MethodRun, step: Step, ref_inputs: dict) -> list[tuple[float, set[str]]]:
+def _candidates(run: _MethodRun, step: Step, ref_inputs: dict):
     """The step's honest values from the student's own earlier results, each with the earlier steps whose
-    own value it used.
+    own value it used: (value, set of step ids), in a fixed order.
 
     For each earlier result the step uses, the student may have carried the recomputed value, the value
     as they wrote it, or their own unrounded value (recomputed from their own written inputs); every
-    combination other than all-recomputed is tried (at most 81).
+    combination other than all-recomputed is tried (at most 81).  The options are taken now; each value
+    is computed as it is read (an iterator).
     """
     upstream = [n for n in step.inputs if n in run.method.step_ids]
     if any(n not in ref_inputs and n not in run.reported_si for n in step.inputs):
-        return []  # an observation or constant is missing: nothing to recompute from
+        return iter(())  # an observation or constant is missing: nothing to recompute from
     options = []
     for u in upstream:
         opts = [(ref_inputs[u], False)] if u in ref_inputs else []
@@ -439,19 +466,21 @@ def _candidates(run: _MethodRun, step: Step, ref_inputs: dict) -> list[tuple[flo
             if v is not None and all(abs(v - o[0]) > 0 for o in opts):
                 opts.append((v, True))
         options.append(opts)
-    out = []
     if not upstream:
-        return out
+        return iter(())
+    return _combinations(step, dict(ref_inputs), upstream, options)
+
+
+def _combinations(step: Step, ref_inputs: dict, upstream: list, options: list):
     for n, combo in enumerate(itertools.product(*options)):
         if n >= _MAX_COMBINATIONS:
             break
         if not any(own for _, own in combo):
             continue
         inputs = {**ref_inputs, **{u: v for u, (v, _) in zip(upstream, combo)}}
-        value = evaluate_step(step, inputs)[0]
+        value = evaluate_step(step, inputs)[0]  # enters numpy's error state itself when read outside grading
         if value is not None:
-            out.append((value, {u for u, (_, own) in zip(upstream, combo) if own}))
-    return out
+            yield value, {u for u, (_, own) in zip(upstream, combo) if own}
 
 
 def _inputs_shown(run: _MethodRun, step: Step) -> list[dict]:
