@@ -6,6 +6,7 @@ import pytest
 from labcheck.base.resources import shipped_spec
 from labcheck.model.spec import load_spec
 from labcheck.report.render import Renderer
+from conftest import good_dip_rows, grade_rows
 
 
 @pytest.fixture(scope="module")
@@ -38,3 +39,44 @@ def test_other_objects_keep_jinja2s_lookup(env):
             return "item"
 
     assert env.from_string("{{ t.name }} {{ t.other }}").render(t=Thing()) == "attr item"
+
+
+# ---------------------------------------------------------------- the compiled-template cache
+
+def _sheet_env(monkeypatch, cache):
+    import labcheck.report.render as render
+
+    monkeypatch.setattr(render, "_bytecode_cache", lambda: cache)
+    return Renderer(load_spec(shipped_spec("horizon_dip")), "2026-01-01 00:00 UTC")
+
+
+def test_a_damaged_cache_entry_is_a_miss(tmp_path, monkeypatch):
+    from labcheck.report.render import _BytecodeCache
+
+    cache = _BytecodeCache(str(tmp_path))
+    first = _sheet_env(monkeypatch, cache)
+    entries = sorted(tmp_path.iterdir())
+    assert entries, "the first renderer should have filled the cache"
+    for entry in entries:  # a cut-off write, and garbage after a valid header
+        entry.write_bytes(entry.read_bytes()[:7])
+    second = _sheet_env(monkeypatch, cache)
+    uncached = _sheet_env(monkeypatch, None)
+    record = grade_rows(load_spec(shipped_spec("horizon_dip")), good_dip_rows())
+    sheet = uncached.sheet(record)
+    assert "Test Student" in sheet
+    assert first.sheet(record) == second.sheet(record) == sheet
+
+
+def test_a_cache_that_cannot_be_written_costs_nothing(tmp_path, monkeypatch):
+    import errno
+    import tempfile
+
+    from labcheck.report.render import _BytecodeCache
+
+    def full(*a, **k):
+        raise OSError(errno.ENOSPC, "No space left on device")
+
+    monkeypatch.setattr(tempfile, "NamedTemporaryFile", full)
+    renderer = _sheet_env(monkeypatch, _BytecodeCache(str(tmp_path)))
+    assert renderer.env.from_string("{{ 1 + 1 }}").render() == "2"
+    assert not list(tmp_path.iterdir())
