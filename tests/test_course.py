@@ -419,3 +419,36 @@ def test_export_points_possible_row(tmp_path, inputs, dip_spec):
         course.write_export(out, points_possible=True)
     # refused part-way through writing: the previous export is whole and no partial file is left beside it
     assert out.read_bytes() == before and sorted(p.name for p in tmp_path.glob("pp.csv*")) == ["pp.csv"]
+
+
+def test_an_adjustments_file_reads_the_roster_and_results_once(tmp_path, inputs, monkeypatch):
+    # Regression: every row of `course adjust --file` rebuilt the roster and the lab's current results,
+    # so a file of n rows cost n times the roster.  The lookups are now made once per file; every row is
+    # still its own transaction and is recorded.
+    from labcheck.cli.main import main
+
+    c = str(tmp_path / "c")
+    assert main(["course", "new", c, "--roster", str(inputs.roster)]) == 0
+    assert main(["course", "grade", c, "horizon_dip", str(inputs.inputs["horizon_dip"]), "--quiet", "--jobs", "1"]) == 0
+    calls = {"all_students": 0, "current_results": 0}
+    for name in calls:
+        real = getattr(Course, name)
+
+        def counted(self, *a, _real=real, _name=name, **k):
+            calls[_name] += 1
+            return _real(self, *a, **k)
+
+        monkeypatch.setattr(Course, name, counted)
+    rows = [f"{sid};horizon_dip;;{k % 3};row {k}" for k, (sid, *_rest) in enumerate(STUDENTS * 3)]
+    adj = tmp_path / "adj.csv"
+    adj.write_text("student_id;lab;step;points;reason\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    assert main(["course", "adjust", c, "--file", str(adj)]) == 0
+    assert calls == {"all_students": 1, "current_results": 1}
+    with Course.open(c) as course:
+        active = course.conn.execute("SELECT student_id, points, reason FROM adjustments WHERE withdrawn_at IS NULL "
+                                     "ORDER BY student_id").fetchall()
+        made = course.conn.execute("SELECT count(*) FROM adjustments").fetchone()[0]
+    assert made == len(rows)  # each row recorded; a later row for the same student replaces the earlier one
+    assert len(active) == len(STUDENTS)
+    last = {sid: (k % 3, f"row {k}") for k, (sid, *_rest) in enumerate(STUDENTS * 3)}
+    assert {r["student_id"]: (r["points"], r["reason"]) for r in active} == last

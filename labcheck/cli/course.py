@@ -83,9 +83,11 @@ def cmd_adjust(args) -> int:
         if args.file:
             rows = read_adjustments(args.file)
             done = []
+            lookup = course.adjust_lookup()  # the roster and results read once for the whole file
             for r in rows:  # each is its own transaction: a bad row is named, the ones before it stay made
                 try:
-                    done.append(course.adjust(r["student"], r["lab"], r["points"], r["reason"], r["step"]))
+                    done.append(course.adjust(r["student"], r["lab"], r["points"], r["reason"], r["step"],
+                                              lookup=lookup))
                 except CourseError as exc:
                     raise CourseError(f"{args.file}: row {r['row']}: {exc} ({len(done)} row(s) before it were "
                                       "recorded; correct this row and give the file again: recorded ones are "

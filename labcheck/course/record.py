@@ -135,6 +135,11 @@ MIGRATIONS = [
         made_at TEXT NOT NULL
     );
     """,
+    # 3: an adjustment replaces the student's active one on the same lab and step: found by index, not by
+    # reading every adjustment (an adjustments file of n rows was quadratic in n).
+    """
+    CREATE INDEX adjustments_student ON adjustments (student_id, lab_id);
+    """,
 ]
 SCHEMA_VERSION = len(MIGRATIONS)
 
@@ -169,6 +174,40 @@ class LabStatus:
     def to_review(self) -> int:
         return sum(len(x) for x in (self.missing, self.unreadable, self.identity, self.superseded, self.leads,
                                     self.unexplained, self.adjustments))
+
+
+class AdjustLookup:
+    """What :meth:`Course.adjust` looks up, read once for many adjustments (none of them changes it)."""
+
+    def __init__(self, course: "Course"):
+        self.course = course
+        self._roster: Roster | None = None
+        self._labs: set[str] = set()
+        self._current: dict[str, dict] = {}
+        self._specs: dict[int, object] = {}
+
+    def student(self, text: str) -> RosterEntry:
+        if self._roster is None:
+            self._roster = self.course.all_students()
+        found = self._roster.find(text)
+        if found is None:
+            raise CourseError(f"no student {text!r} in this course's roster")
+        return found
+
+    def lab(self, lab_id: str) -> None:
+        if lab_id not in self._labs:
+            self.course._lab(lab_id)
+            self._labs.add(lab_id)
+
+    def current(self, lab_id: str) -> dict:
+        if lab_id not in self._current:
+            self._current[lab_id] = self.course.current_results(lab_id)
+        return self._current[lab_id]
+
+    def spec(self, run_id: int):
+        if run_id not in self._specs:
+            self._specs[run_id] = self.course.spec_of_run(run_id)
+        return self._specs[run_id]
 
 
 class Course:
@@ -305,13 +344,17 @@ class Course:
     def sections(self) -> list[str]:
         return [r[0] for r in self.conn.execute("SELECT DISTINCT section FROM students WHERE active = 1 ORDER BY 1")]
 
-    def find_student(self, text: str) -> RosterEntry:
+    def all_students(self) -> Roster:
+        """Every student the course has had, dropped ones too."""
         rows = self.conn.execute("SELECT student_id, name, section FROM students").fetchall()
-        roster = Roster([RosterEntry(r["student_id"], r["name"], r["section"]) for r in rows])
-        found = roster.find(text)
-        if found is None:
-            raise CourseError(f"no student {text!r} in this course's roster")
-        return found
+        return Roster([RosterEntry(r["student_id"], r["name"], r["section"]) for r in rows])
+
+    def find_student(self, text: str) -> RosterEntry:
+        return AdjustLookup(self).student(text)
+
+    def adjust_lookup(self) -> AdjustLookup:
+        """A lookup to hand to :meth:`adjust` for many rows at once."""
+        return AdjustLookup(self)
 
     # ------------------------------------------------------------ grading
     def grade(self, spec, inputs: list, *, section: str | None = None, keep: str = "latest", jobs: int = 1,
@@ -430,19 +473,25 @@ class Course:
         return out
 
     # ------------------------------------------------------------ adjustments
-    def adjust(self, student: str, lab_id: str, points: float, reason: str, step: str | None = None) -> int:
-        """Record an adjustment (replacing the student's active one on the same step, or on the lab's total)."""
-        entry = self.find_student(student)
-        self._lab(lab_id)
+    def adjust(self, student: str, lab_id: str, points: float, reason: str, step: str | None = None, *,
+               lookup: "AdjustLookup | None" = None) -> int:
+        """Record an adjustment (replacing the student's active one on the same step, or on the lab's total).
+
+        ``lookup`` (:meth:`adjust_lookup`) keeps the roster, each lab's current results and each run's spec
+        from one row to the next of an adjustments file: adjustments change none of them, and looking them
+        up afresh for every row made a file of n rows cost n times the roster."""
+        lookup = lookup or AdjustLookup(self)
+        entry = lookup.student(student)
+        lookup.lab(lab_id)
         if not reason or not reason.strip():
             raise CourseError("an adjustment needs a reason (--reason TEXT); the student's sheet shows it")
         if points != points or abs(points) > 1e6:
             raise CourseError(f"points {points!r} are not a usable number")
-        current = self.current_results(lab_id).get(entry.student_id)
+        current = lookup.current(lab_id).get(entry.student_id)
         basis_verdict = basis_points = None
         basis_run = current["run_id"] if current is not None else None
         if step:
-            spec = self.spec_of_run(basis_run) if basis_run else None
+            spec = lookup.spec(basis_run) if basis_run else None
             if spec is not None and step not in spec.steps:
                 raise CourseError(f"lab {lab_id} has no step {step!r}; its steps are {', '.join(spec.steps)}")
             if current is not None and current["status"] == "graded":
