@@ -452,3 +452,40 @@ def test_an_adjustments_file_reads_the_roster_and_results_once(tmp_path, inputs,
     assert len(active) == len(STUDENTS)
     last = {sid: (k % 3, f"row {k}") for k, (sid, *_rest) in enumerate(STUDENTS * 3)}
     assert {r["student_id"]: (r["points"], r["reason"]) for r in active} == last
+
+
+def test_a_killed_feedback_run_leaves_every_pdf_whole(tmp_path, inputs, dip_spec):
+    # Killed in the middle of writing a PDF: every <student>.pdf in the folder is a whole PDF (the previous
+    # run's or this one's), and the zip is the previous run's, whole.  A cut-off file is left only as .part.
+    course = _new_course(tmp_path, inputs)
+    course.grade(dip_spec, [inputs.inputs["horizon_dip"]])
+    names, bundle = course.write_feedback("horizon_dip", tmp_path / "pdfs", jobs=1)
+    zip_before = bundle.read_bytes()
+    course.close()
+    script = f"""
+import os, signal
+import weasyprint
+real = weasyprint.Document.write_pdf
+calls = []
+def dying(self, target=None, **kw):
+    calls.append(target)
+    if len(calls) == 3:  # half of the third PDF written, then killed
+        data = real(self, None, **kw)
+        with open(target, "wb") as fh:
+            fh.write(data[: len(data) // 2])
+            fh.flush()
+        os.kill(os.getpid(), signal.SIGKILL)
+    return real(self, target, **kw)
+weasyprint.Document.write_pdf = dying
+from labcheck.cli.main import main
+raise SystemExit(main(["course", "feedback", {str(tmp_path / 'course')!r}, "horizon_dip", "--out",
+                       {str(tmp_path / 'pdfs')!r}, "--force", "--jobs", "1"]))
+"""
+    p = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)
+    assert p.returncode == -signal.SIGKILL, p.stderr
+    pdfs = sorted((tmp_path / "pdfs").glob("*.pdf"))
+    assert sorted(p.name for p in pdfs) == sorted(names)
+    for pdf in pdfs:
+        assert len(pypdf.PdfReader(pdf).pages) >= 1, pdf.name  # whole: pypdf reads it to the end
+    assert bundle.read_bytes() == zip_before
+    assert len(list((tmp_path / "pdfs").glob("*.part"))) == 1

@@ -22,11 +22,21 @@ def _refuse(url: str, *args, **kwargs):
 
 
 def html_to_pdf(html: str, path: str | Path) -> int:
-    """Write the page ``html`` as a PDF at ``path``; return its number of pages."""
+    """Write the page ``html`` as a PDF at ``path``; return its number of pages.
+
+    Written beside it as ``<name>.part`` and renamed into place: killed part-way, ``path`` is the whole
+    previous PDF or the whole new one, never a cut-off file that looks like a sheet."""
     try:
         import weasyprint
     except (ImportError, OSError) as exc:  # OSError: Pango or HarfBuzz missing from the system
         raise PdfError(f"PDFs need WeasyPrint and its system libraries (Pango): {exc}") from None
+    path = Path(path)
     document = weasyprint.HTML(string=html, url_fetcher=_refuse).render()
-    document.write_pdf(str(path))
+    part = path.with_name(path.name + ".part")
+    try:
+        document.write_pdf(str(part))
+        part.replace(path)
+    except BaseException:
+        part.unlink(missing_ok=True)
+        raise
     return len(document.pages)
