@@ -1,5 +1,6 @@
 """Lab spec validation: every error names the file, the key path and what was expected."""
 
+import math
 from pathlib import Path
 
 import pytest
@@ -206,3 +207,29 @@ def test_the_shipped_json_schema_is_current_and_judges_specs_as_labcheck_does():
         assert list(validator.iter_errors(tomllib.loads(text))), f"the JSON Schema accepts {edit[1]!r}"
         with pytest.raises(SpecError):
             parse_spec(text.encode(), "edited.toml")
+
+
+# ---------------------------------------------------------------- Tolerance.first_match (labcheck tune)
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+_floats = st.floats(allow_nan=True, allow_infinity=True, width=64)
+_sane = st.floats(min_value=-1e12, max_value=1e12, allow_nan=False)
+
+
+@settings(max_examples=400, deadline=None)
+@given(relative=st.one_of(st.none(), st.floats(min_value=0, max_value=1)),
+       absolute=st.one_of(st.none(), st.floats(min_value=0, max_value=1e3)),
+       reported=st.one_of(_sane, _floats), targets=st.lists(st.one_of(_sane, _floats), max_size=12),
+       extra=st.floats(min_value=0, max_value=1e3), near=st.booleans())
+def test_first_match_is_the_first_target_that_matches(relative, absolute, reported, targets, extra, near):
+    # The vectorised test tune uses must answer exactly as the grader's matches(), target by target.
+    import numpy as np
+
+    from labcheck.model.spec import Tolerance
+
+    tol = Tolerance("t", absolute_si=absolute, relative=relative)
+    if near and targets and all(map(math.isfinite, (reported, targets[0]))):  # targets on the tolerance's edge
+        targets = [reported + tol.allowed(t) + extra for t in targets[:1]] + targets
+    expected = next((i for i, t in enumerate(targets) if tol.matches(reported, t, extra)), -1)
+    assert tol.first_match(reported, np.array(targets, dtype=float), extra) == expected

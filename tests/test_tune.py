@@ -7,7 +7,7 @@ from labcheck.reading.ingest import read_rows
 from labcheck.reading.submission import normalise
 from labcheck.grading.tune import tune
 
-from conftest import csv_bytes, good_dip_rows
+from conftest import ARCMIN, csv_bytes, good_dip_rows, hz
 
 
 def off_by(rows, key, factor):
@@ -60,25 +60,57 @@ def test_tune_prints_the_tolerance_values_it_tried_and_counts_students(spec):
     assert "students with full points" in text
 
 
-@pytest.mark.parametrize("lab", ["horizon_dip", "taped_baseline"])
-def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
-    # Issue 12: tune re-judges stored values instead of regrading; at every sweep point its counts,
-    # mean score and passes must equal those of a full regrade with that one tolerance changed.
-    from dataclasses import replace
+def _moved(rows, seed):
+    """The rows with each observation's last digit moved by one with probability 1/2 (as the scale benchmark
+    does): the reported steps no longer follow from the readings, so many are wrong or carried."""
+    import random
 
+    rng = random.Random(seed)
+    out = []
+    for r in rows:
+        v = str(r[2]) if len(r) > 2 else ""
+        if r[0] == "observation" and v[-1:].isdigit() and not any(c.isalpha() for c in v) and rng.random() < 0.5:
+            r = (r[0], r[1], v[:-1] + str((int(v[-1]) + rng.choice((1, -1))) % 10), *r[3:])
+        out.append(r)
+    return out
+
+
+@pytest.mark.parametrize("lab, moved", [("horizon_dip", False), ("taped_baseline", False),
+                                        ("taped_baseline", True), ("trig_heighting", True)])
+def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab, moved):
+    # Issue 12: tune re-judges stored values instead of regrading (and only from the swept step on); at
+    # every sweep point its counts, mean score and passes must equal those of a full regrade with that one
+    # tolerance changed.  "moved": readings moved under the reported values, so that verdicts before and
+    # after the swept step are wrong or carried, and re-judging must follow them.
     from labcheck.demo import SECTIONS
-    from labcheck.grading.grade import grade_submission
-    from labcheck.report.words import worded
     from labcheck.base.resources import shipped_spec
     from labcheck.model.spec import load_spec
-    from labcheck.grading.tune import MULTIPLIERS, _scaled
 
     spec = load_spec(shipped_spec(lab))
+    if moved:  # half credit for a carried error, so that a carried step's verdict shows in the scores
+        from dataclasses import replace
+
+        spec = replace(spec, carried_fraction=0.5)
     section = next(s for s in SECTIONS if s.lab == lab)
-    subs = [normalise(read_rows(csv_bytes(g.rows), f"{g.number}.csv"), spec) for g in section.generate()
-            if g.number not in section.unreadable]
+    subs = [normalise(read_rows(csv_bytes(_moved(g.rows, g.number) if moved else g.rows), f"{g.number}.csv"), spec)
+            for g in section.generate() if g.number not in section.unreadable]
+    seen = _assert_equals_full_regrades(spec, subs)
+    if moved:  # the moved sections exercise what they are for
+        assert {"correct", "wrong", "carried"} <= seen, seen
+
+
+def _assert_equals_full_regrades(spec, subs) -> set:
+    """tune's figures at every sweep point equal those of a full regrade with that one tolerance changed;
+    returns the verdicts seen."""
+    from dataclasses import replace
+
+    from labcheck.grading.grade import grade_submission
+    from labcheck.grading.tune import MULTIPLIERS, _scaled
+    from labcheck.report.words import worded
+
     report = tune(spec, subs)
     pass_pct = 100 * spec.pass_fraction
+    seen: set = set()
     for key, rule in spec.steps.items():
         for m, row in zip(MULTIPLIERS, report.steps[key]):
             tried = replace(spec, steps={**spec.steps, key: replace(rule, tolerance=_scaled(rule.tolerance, m))})
@@ -89,3 +121,26 @@ def test_tune_figures_equal_full_regrades_at_every_sweep_point(lab):
                                                               verdicts.count("wrong")), (key, m)
             assert row.mean_percent == pytest.approx(sum(pcts) / len(pcts), abs=1e-6), (key, m)
             assert row.n_pass == sum(p >= pass_pct - 1e-9 for p in pcts), (key, m)
+            seen.update(verdicts)
+    return seen
+
+
+def test_a_swept_step_that_turns_correct_turns_the_carried_steps_after_it_correct(spec):
+    # dip_mean reported 0.05 arcmin off the readings' mean (tolerance 0.02 arcmin): wrong at x1 and x2,
+    # correct at x4.  The radius that follows from it is "carried" while dip_mean is wrong and "correct"
+    # once it is not: sweeping dip_mean must judge the later steps again, not keep their verdicts.  Half
+    # credit for a carried error (the shipped spec gives full credit, so that no score would show it).
+    from dataclasses import replace
+
+    spec = replace(spec, carried_fraction=0.5)
+    rows = good_dip_rows()
+    r_app = float(hz.radius_from_dip(12.0, 6.05 * ARCMIN)) / 1000
+    fixed = {"dip_mean": "6.05", "dip.radius_apparent": f"{r_app:.1f}", "dip.radius": f"{0.87 * r_app:.1f}",
+             "dip.radius_error_pct": f"{100 * (0.87 * r_app * 1000 - 6371008.8) / 6371008.8:.2f}"}
+    rows = [(r[0], r[1], fixed.get(r[1], r[2]), *r[3:]) if r[0] == "result" else r for r in rows]
+    subs = [normalise(read_rows(csv_bytes(rows), "a.csv"), spec)]
+    report = tune(spec, subs)
+    dip = {r.multiplier: r for r in report.steps["dip_mean"]}
+    assert (dip[1.0].wrong, dip[4.0].correct) == (1, 1)
+    assert dip[4.0].mean_percent > dip[2.0].mean_percent  # dip_mean's own points, and the carried steps' halves
+    assert _assert_equals_full_regrades(spec, subs) >= {"wrong", "carried", "correct"}

@@ -290,6 +290,9 @@ class StepTrace:
     widen: float
     candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
     reported_steps: frozenset  # the method's steps the student reported
+    _settled: bool = False  # settle() was called: candidates are held as arrays once first needed
+    _values: object = None  # then: every candidate's value, as a numpy array
+    _used: tuple = ()  # then: every candidate's set of earlier steps
 
     def honest_values(self):
         """The candidates, computed on first need (most steps match the recomputed value and never need them),
@@ -297,6 +300,26 @@ class StepTrace:
         if callable(self.candidates):
             self.candidates = _Memo(self.candidates())
         return self.candidates
+
+    def settle(self) -> None:
+        """From now on, when the candidates are first needed, compute them all and hold them as an array
+        (``labcheck tune`` re-judges each step many times: one vectorised test per judgement instead of a
+        loop over the candidates)."""
+        self._settled = True
+
+    def first_honest(self, tol, reported: float, widen: float):
+        """(value, set of earlier steps it used) of the first candidate within ``tol``, or None."""
+        if self._settled and self._values is None:
+            values = tuple(self.honest_values())
+            self._values = np.array([v for v, _ in values], dtype=float)
+            self._used = tuple(u for _, u in values)
+        if self._values is not None:
+            i = tol.first_match(reported, self._values, widen)
+            return None if i < 0 else (self._values[i], self._used[i])
+        for value, used in self.honest_values():
+            if tol.matches(reported, value, widen):
+                return value, used
+        return None
 
 
 class _Memo:
@@ -334,11 +357,24 @@ def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]
         return "correct", None
     if exp is None and trace.unbounded and rep > 0:
         return "correct", None
-    for value, used in trace.honest_values():
-        if tol.matches(rep, value, widen):
-            wrong = [u for u in used if verdicts.get(u) in ("wrong", "carried") and u in trace.reported_steps]
-            return ("carried" if wrong else "correct"), used
+    found = trace.first_honest(tol, rep, widen)
+    if found is not None:
+        return _carried_or_correct(trace, found[1], verdicts), found[1]
     return ("missing" if exp is None else "wrong"), None
+
+
+def rejudge(trace: StepTrace, judged: tuple[str, frozenset | None], verdicts: dict) -> str:
+    """The verdict :func:`judge` gives under the same tolerance as ``judged`` (its earlier answer), when only
+    the earlier steps' verdicts have changed: which value matched depends on the tolerance alone, so only
+    whether the earlier steps it used are now wrong can change (``labcheck tune`` sweeping an earlier step)."""
+    verdict, used = judged
+    return verdict if used is None else _carried_or_correct(trace, used, verdicts)
+
+
+def _carried_or_correct(trace: StepTrace, used, verdicts: dict) -> str:
+    """A match that used the student's own earlier values is carried when any of them was wrong."""
+    wrong = [u for u in used if verdicts.get(u) in ("wrong", "carried") and u in trace.reported_steps]
+    return "carried" if wrong else "correct"
 
 
 def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref_inputs, own_inputs, sub: Submission,

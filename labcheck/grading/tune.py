@@ -15,7 +15,7 @@ import re
 import statistics
 from dataclasses import dataclass
 
-from labcheck.grading.grade import grade_submission, judge
+from labcheck.grading.grade import grade_submission, judge, rejudge
 from labcheck.model.spec import AccuracyRule, LabSpec, Tolerance
 from labcheck.base.phrase import Number, Value, phrase
 from labcheck.base.units import parse_quantity
@@ -76,32 +76,56 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
         return (statistics.fmean(pcts) if pcts else 0.0), sum(p >= pass_pct - 1e-9 for p in pcts)
 
     factor = {"correct": 1.0, "carried": spec.carried_fraction}
+
+    def change(t, verdict, old):
+        return round(t.points * factor.get(verdict, 0.0), 3) - old
+
+    # Per submission and method: its traces in order, each with the points the sheet gave and the verdict
+    # and score change under the spec's own tolerances.  A step is judged on its own tolerance and the
+    # earlier steps' verdicts only, so sweeping step k leaves every step before k as it is: those are
+    # taken from here, and only k and the steps after it are judged again (the score changes are still
+    # added one by one in method order, so the sums are the same floats as a full re-judging gives).
+    prepared: dict = {}
+    for n, (rec, traces) in enumerate(traced):
+        points = {s["id"]: s["points"] for s in rec["steps"]}
+        for method_id, method_traces in traces:
+            judged: dict = {}
+            rows = []
+            for t in method_traces:
+                t.settle()  # candidates as an array once needed: the swept step is judged at every point
+                answer = judge(spec.steps[t.key].tolerance, t, judged)
+                judged[t.step_id] = answer[0]
+                old = points[t.key]
+                rows.append((t, answer, old, change(t, answer[0], old)))
+            prepared.setdefault(method_id, []).append((n, rows))
+
     steps = {}
     for key, rule in spec.steps.items():
-        rows = []
+        rows_out = []
         for m in MULTIPLIERS:
             tried = _scaled(rule.tolerance, m)
-            verdicts, scores, maxes = [], [], []
-            for rec, traces in traced:
-                score = rec["score"]
-                for method_id, method_traces in traces:
-                    if method_id != rule.method.id:
-                        continue
-                    judged: dict = {}
-                    for t in method_traces:
-                        tol = tried if t.key == key else spec.steps[t.key].tolerance
-                        verdict, _ = judge(tol, t, judged)
-                        judged[t.step_id] = verdict
-                        old = next(s["points"] for s in rec["steps"] if s["id"] == t.key)
-                        score += round(t.points * factor.get(verdict, 0.0), 3) - old
-                        if t.key == key:
-                            verdicts.append(verdict)
-                scores.append(score)
-                maxes.append(rec["max_score"])
-            mean, n_pass = summarise(scores, maxes)
-            rows.append(SweepRow(m, tried.text, verdicts.count("correct"), verdicts.count("carried"),
-                                 verdicts.count("wrong"), mean, n_pass))
-        steps[key] = rows
+            verdicts = []
+            scores = [rec["score"] for rec, _ in traced]
+            for n, rows in prepared.get(rule.method.id, ()):
+                start = next((i for i, row in enumerate(rows) if row[0].key == key), len(rows))
+                score = scores[n]
+                judged = {}
+                for t, answer, _, changed in rows[:start]:
+                    judged[t.step_id] = answer[0]
+                    score += changed
+                for t, answer, old, _ in rows[start:]:
+                    if t.key == key:
+                        verdict = judge(tried, t, judged)[0]
+                        verdicts.append(verdict)
+                    else:  # its own tolerance as graded: only the earlier verdicts may have moved it
+                        verdict = rejudge(t, answer, judged)
+                    judged[t.step_id] = verdict
+                    score += change(t, verdict, old)
+                scores[n] = score
+            mean, n_pass = summarise(scores, [rec["max_score"] for rec, _ in traced])
+            rows_out.append(SweepRow(m, tried.text, verdicts.count("correct"), verdicts.count("carried"),
+                                     verdicts.count("wrong"), mean, n_pass))
+        steps[key] = rows_out
 
     accuracy_rows = []
     if spec.accuracy is not None:

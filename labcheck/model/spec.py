@@ -53,6 +53,23 @@ class Tolerance:
         slack = 1e-9 * max(abs(target_si), 1e-300)
         return abs(reported_si - target_si) <= self.allowed(target_si) + extra_si + slack
 
+    def first_match(self, reported_si: float, targets, extra_si: float = 0.0) -> int:
+        """The index of the first of ``targets`` (a float64 numpy array) that :meth:`matches`, or -1.
+
+        The same test, element by element in the same order of operations, so the same floats and the
+        same answers: ``labcheck tune`` asks it for every candidate of a step at every sweep point."""
+        import numpy as np
+
+        if not math.isfinite(reported_si) or not targets.size:
+            return -1
+        with np.errstate(all="ignore"):
+            size = np.abs(targets)
+            allowed = size * self.relative if self.relative is not None else (self.absolute_si or 0.0)
+            slack = 1e-9 * np.maximum(size, 1e-300)
+            ok = np.isfinite(targets) & (np.abs(reported_si - targets) <= allowed + extra_si + slack)
+        first = int(np.argmax(ok))
+        return first if ok[first] else -1
+
 
 @dataclass(frozen=True)
 class StepRule:
