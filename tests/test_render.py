@@ -80,3 +80,27 @@ def test_a_cache_that_cannot_be_written_costs_nothing(tmp_path, monkeypatch):
     renderer = _sheet_env(monkeypatch, _BytecodeCache(str(tmp_path)))
     assert renderer.env.from_string("{{ 1 + 1 }}").render() == "2"
     assert not list(tmp_path.iterdir())
+
+
+def test_a_template_compiled_with_other_options_is_never_taken_for_ours(tmp_path, monkeypatch):
+    # An entry of the same template compiled without autoescaping (another labcheck, or another program
+    # with our cache class) lands under another key: our sheets stay escaped.
+    import jinja2
+
+    import labcheck.report.render as render
+    from labcheck.base.resources import templates_dir
+    from labcheck.report.render import _BytecodeCache
+
+    cache = _BytecodeCache(str(tmp_path))
+    monkeypatch.setattr(render, "_COMPILED_WITH", "an older labcheck, autoescape off")
+    other = jinja2.Environment(loader=jinja2.FileSystemLoader(str(templates_dir())), bytecode_cache=cache,
+                               autoescape=False, undefined=jinja2.StrictUndefined)
+    other.get_template("feedback.html")
+    theirs = set(tmp_path.iterdir())
+    assert theirs
+    monkeypatch.undo()
+    ours = _sheet_env(monkeypatch, cache)
+    assert set(tmp_path.iterdir()) > theirs  # our own entries, beside theirs
+    record = grade_rows(load_spec(shipped_spec("horizon_dip")), good_dip_rows(name="<b>Ann</b>"))
+    sheet = ours.sheet(record)
+    assert "&lt;b&gt;Ann&lt;/b&gt;" in sheet and "<b>Ann</b>" not in sheet

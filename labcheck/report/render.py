@@ -7,7 +7,9 @@ errors (StrictUndefined), not silent blanks.
 
 from __future__ import annotations
 
+import hashlib
 import math
+import sys
 from collections import Counter
 
 import jinja2
@@ -77,6 +79,19 @@ PAGE_SIZES = ("A4", "letter")
 
 
 _DICT_ATTRIBUTES = frozenset(dir(dict))
+# The environment's compile options, written once: they build it and they key its compiled-template cache.
+_SETTINGS = {"autoescape_extensions": ("html", "htm", "xml", "j2"), "autoescape_default": True,
+             "undefined": "StrictUndefined", "trim_blocks": True, "lstrip_blocks": True}
+_OPTIONS = dict(
+    autoescape=jinja2.select_autoescape(enabled_extensions=_SETTINGS["autoescape_extensions"],
+                                        default=_SETTINGS["autoescape_default"]),
+    undefined=getattr(jinja2, _SETTINGS["undefined"]),
+    trim_blocks=_SETTINGS["trim_blocks"],
+    lstrip_blocks=_SETTINGS["lstrip_blocks"],
+)
+# What a compiled template depends on besides its source: a cache entry made under anything else is not ours.
+_COMPILED_WITH = (f"labcheck {__version__}; jinja2 {jinja2.__version__}; python {sys.version_info[:3]}; "
+                  f"{sorted(_SETTINGS.items())}")
 
 
 class _Environment(jinja2.Environment):
@@ -100,7 +115,19 @@ class _Environment(jinja2.Environment):
 class _BytecodeCache(jinja2.FileSystemBytecodeCache):
     """jinja2's cache of compiled templates, best effort: a cache file that cannot be read (damaged,
     truncated) is a miss and one that cannot be written (disk full) is skipped, so the cache can only
-    save time, never cost a run."""
+    save time, never cost a run.
+
+    jinja2 keys an entry by the template's name and file (and checks its source), not by the options it
+    was compiled with: a template compiled by another labcheck or jinja2 version, or with other options
+    (autoescaping among them), must never be taken for ours.  So the key also carries those
+    (:data:`_COMPILED_WITH`) and labcheck's entries are named apart from other programs'.
+    """
+
+    def __init__(self, directory: str | None = None):
+        super().__init__(directory, "labcheck-%s.jinja-cache")
+
+    def get_cache_key(self, name: str, filename: str | None = None) -> str:
+        return hashlib.sha256(f"{_COMPILED_WITH}|{name}|{filename or ''}".encode("utf-8")).hexdigest()
 
     def load_bytecode(self, bucket) -> None:
         try:
@@ -129,14 +156,8 @@ class Renderer:
     def __init__(self, spec: LabSpec, generated: str | None = None, page_size: str | None = None):
         """``generated`` is the time the outputs state (the parent's, so that every worker's sheets agree)."""
         self.spec = spec
-        self.env = _Environment(
-            loader=jinja2.FileSystemLoader(str(templates_dir())),
-            bytecode_cache=_bytecode_cache(),
-            autoescape=jinja2.select_autoescape(enabled_extensions=("html", "htm", "xml", "j2"), default=True),
-            undefined=jinja2.StrictUndefined,
-            trim_blocks=True,
-            lstrip_blocks=True,
-        )
+        self.env = _Environment(loader=jinja2.FileSystemLoader(str(templates_dir())), bytecode_cache=_bytecode_cache(),
+                                **_OPTIONS)
         page_size = page_size or spec.page_size
         if page_size not in PAGE_SIZES:
             raise ValueError(f"page size {page_size!r}: use one of {', '.join(PAGE_SIZES)}")
