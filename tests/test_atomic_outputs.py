@@ -263,9 +263,12 @@ def test_a_worker_that_dies_costs_only_its_own_file(tmp_path, monkeypatch):
 
     monkeypatch.setattr(batch._FileGrader, "grade", deadly)
     inp = _inputs(tmp_path / "A", 12, 0)
+    (inp / ".DS_Store").write_bytes(b"clutter")  # a skipped file in the dead worker's chunk of 8
     code = main(["grade", "horizon_dip", str(inp), "--out", str(tmp_path / "out"), "--quiet", "--jobs", "2"])
     assert code == 3
-    subs = json.loads((tmp_path / "out" / "results.json").read_text())["submissions"]
+    results = json.loads((tmp_path / "out" / "results.json").read_text())
+    assert [s["file"] for s in results["skipped"]] == ["A/.DS_Store"]
+    subs = results["submissions"]
     assert len(subs) == 12
     assert [s["status"] for s in subs].count("graded") == 11
     dead = next(s for s in subs if s["submission"].endswith("g003.csv"))
