@@ -14,6 +14,7 @@ ranges labcheck uses (tests/test_stats.py).
 
 from __future__ import annotations
 
+import functools
 import math
 
 __all__ = ["chi2_sf", "chi2_cdf", "t_sf", "t_isf"]
@@ -123,8 +124,12 @@ def t_sf(t: float, df: float) -> float:
     return tail if t >= 0 else 1.0 - tail
 
 
+@functools.lru_cache(maxsize=4096)
 def t_isf(q: float, df: float) -> float:
-    """The t with P(T > t) = q, for 0 < q < 1."""
+    """The t with P(T > t) = q, for 0 < q < 1.
+
+    Kept per (q, df): a section's outlier tests ask for the same few critical values again and again,
+    and each costs a hundred evaluations of the incomplete beta function."""
     if not 0.0 < q < 1.0:
         raise ValueError(f"q must be between 0 and 1, got {q}")
     if q > 0.5:
