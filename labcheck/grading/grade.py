@@ -932,14 +932,14 @@ def grade_submission(sub: Submission, spec: LabSpec, traces: list | None = None)
     else:
         methods = [m for m in spec.methods if _attempted(m, sub, spec)] or list(spec.methods)
     steps, accuracy, quality, observations = [], {}, [], []
-    for m in methods:
-        with quiet():  # one numpy error state for all of a method's evaluations
+    with quiet():  # one numpy error state for all of the submission's evaluations
+        for m in methods:
             s, a, q, o = _grade_method(m, sub, spec, traces)
-        steps += s
-        if a is not None:
-            accuracy[m.id] = a
-        quality += q
-        observations += o
+            steps += s
+            if a is not None:
+                accuracy[m.id] = a
+            quality += q
+            observations += o
     checks = [q for q in quality if q.get("check")]
     quality_score = None
     if spec.quality.points and checks:
