@@ -489,3 +489,9 @@ raise SystemExit(main(["course", "feedback", {str(tmp_path / 'course')!r}, "hori
         assert len(pypdf.PdfReader(pdf).pages) >= 1, pdf.name  # whole: pypdf reads it to the end
     assert bundle.read_bytes() == zip_before
     assert len(list((tmp_path / "pdfs").glob("*.part"))) == 1
+    # Run again: it finishes, and the cut-off .part is gone.
+    with Course.open(tmp_path / "course") as course:
+        again, bundle = course.write_feedback("horizon_dip", tmp_path / "pdfs", jobs=1)
+    assert sorted(again) == sorted(names)
+    assert not list((tmp_path / "pdfs").glob("*.part"))
+    assert all(len(pypdf.PdfReader(tmp_path / "pdfs" / n).pages) >= 1 for n in again)

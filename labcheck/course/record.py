@@ -728,6 +728,8 @@ class Course:
         self._lab(lab_id)
         out = Path(out)
         out.mkdir(parents=True, exist_ok=True)
+        for left in out.glob("*.pdf.part"):  # cut off by a killed run: never a sheet, and ours by name
+            left.unlink(missing_ok=True)
         renderers: dict = {}
         used: set[str] = set()
         made = []
