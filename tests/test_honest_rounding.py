@@ -13,7 +13,7 @@ import random
 from datetime import datetime, timedelta, timezone
 
 import numpy as np
-from hypothesis import HealthCheck, assume, given, settings, strategies as st
+from hypothesis import example, HealthCheck, assume, given, settings, strategies as st
 from pvlib import spa
 
 from labcheck.grading.grade import grade_submission
@@ -172,7 +172,27 @@ NOM, CAL, TS, PS, AREA, E, W, ALPHA = 30.0, 30.0032, 20.0, 50.0, 2.6e-6, 200e9, 
 
 @HONEST
 @given(st.integers(0, 2**32))
+@example(446570506)  # forward and back written as 169.311 m both: the precision ratio is only bounded below
+@example(438272209)  # the same at 173.474 m
 def test_taped_baseline_lab(seed):
+    assert_honest(grade(TAPED, _honest_taped_rows(seed)))
+
+
+def test_a_precision_ratio_below_the_written_floor_is_still_wrong():
+    # Regression (honest students marked wrong): with forward and back written to the same last digit,
+    # the precision ratio can be any value from mean / (half a unit each) up, and the grader said
+    # "wrong" to honest ratios the written lengths allow.  A ratio below that floor is still wrong.
+    rows = _honest_taped_rows(446570506)
+    ok = grade(TAPED, rows)
+    ratio = next(s for s in ok["steps"] if s["id"] == "precision_ratio")
+    assert ratio["verdict"] == "correct" and "any value from 169" in ratio["explanation"], ratio["explanation"]
+    low = [r if r[1] != "precision_ratio" else (*r[:2], "50000", *r[3:]) for r in rows]
+    wrong = next(s for s in grade(TAPED, low)["steps"] if s["id"] == "precision_ratio")
+    assert wrong["verdict"] == "wrong"
+
+
+def _honest_taped_rows(seed):
+    """An honest taped-baseline submission (the published corrections, written from the formulas here)."""
     rnd = random.Random(seed)
     st_ = Student(rnd, TAPED)
     n = rnd.randint(4, 9)
@@ -215,7 +235,7 @@ def test_taped_baseline_lab(seed):
         st_.report("precision_ratio", ratio, "", st_.tol("precision_ratio", ratio))
     sea = H * 6371008.8 / (6371008.8 + elevation)
     st_.report("sea_level_length", sea, "m", st_.tol("sea_level_length", 0))
-    assert_honest(grade(TAPED, st_.rows))
+    return st_.rows
 
 
 # ------------------------------------------------------------------ sextant noon sight

@@ -262,6 +262,7 @@ class _MethodRun:
     verdicts: dict[str, str] = field(default_factory=dict)
     sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
     own_values: dict = field(default_factory=dict)  # step id -> recomputed from the student's own earlier results
+    reported_half: dict = field(default_factory=dict)  # step id -> half a unit in the last digit written [SI]
     traces: list = field(default_factory=list)  # StepTrace per step, in order (for labcheck tune)
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
@@ -290,6 +291,7 @@ class StepTrace:
     widen: float
     candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
     reported_steps: frozenset  # the method's steps the student reported
+    floor: object = None  # None, a function giving the written-value floor, or it: see written_floor()
     _settled: bool = False  # settle() was called: candidates are held as arrays once first needed
     _values: object = None  # then: every candidate's value, as a numpy array
     _used: tuple = ()  # then: every candidate's set of earlier steps
@@ -300,6 +302,15 @@ class StepTrace:
         if callable(self.candidates):
             self.candidates = _Memo(self.candidates())
         return self.candidates
+
+    def written_floor(self):
+        """When the student's earlier results as written make this step unbounded (a ratio over the
+        difference of two lengths that agree to the last digit written): (the smallest value the step can
+        take with each of them anywhere within half a unit of its last digit, or None when none is finite,
+        the earlier steps used).  An honest value is then any value from that floor up.  None otherwise."""
+        if callable(self.floor):
+            self.floor = self.floor()
+        return self.floor
 
     def settle(self) -> None:
         """From now on, when the candidates are first needed, compute them all and hold them as an array
@@ -360,6 +371,9 @@ def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]
     found = trace.first_honest(tol, rep, widen)
     if found is not None:
         return _carried_or_correct(trace, found[1], verdicts), found[1]
+    floor = trace.written_floor() if rep > 0 else None
+    if floor is not None and (floor[0] is None or rep >= floor[0] or tol.matches(rep, floor[0], widen)):
+        return _carried_or_correct(trace, floor[1], verdicts), floor[1]
     return ("missing" if exp is None else "wrong"), None
 
 
@@ -395,7 +409,8 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
             return "missing", "Your value could not be read (see the notes on your rows)." + also, None
         return "missing", "Not reported." + also, None
     trace = StepTrace(rule.key, step.id, rule.points, rep.si, exp, run.missing_reasons.get(step.id) == (UNBOUNDED,),
-                      widen, lambda: _candidates(run, step, ref_inputs), frozenset(run.reported_si))
+                      widen, lambda: _candidates(run, step, ref_inputs), frozenset(run.reported_si),
+                      floor=lambda: _written_floor(run, step, ref_inputs))
     run.traces.append(trace)
     verdict, matched = judge(tol, trace, run.verdicts)
     if verdict == "correct" and matched is None and exp is not None:
@@ -404,6 +419,18 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
     if verdict == "correct" and matched is None:
         return "correct", ("Recomputed from your observations this value is unbounded (the quantities it divides by "
                            "agree to the last digit), so any positive value you report is consistent with them."), None
+    if verdict in ("correct", "carried") and matched is not None and trace.first_honest(tol, rep.si, widen) is None:
+        # Matched by the floor: the student's earlier values as written make this step unbounded.
+        floor, _ = trace.written_floor()
+        labels = [run.method.step(u).label for u in step.inputs if u in matched]
+        names = " and ".join(labels) if len(labels) <= 2 else ", ".join(labels[:-1]) + " and " + labels[-1]
+        bound = "any positive value" if floor is None else phrase("any value from {lo} up", lo=_step_value(floor, rule, exp if exp is not None else floor))
+        text = phrase("Your {names} as written agree to their last digit, so this value follows from them only as a "
+                      "bound: {bound} is consistent with them (tolerance {tol}).", names=names, bound=bound,
+                      tol=tol_text)
+        if verdict == "carried":
+            text = phrase("{text} Some of those values were wrong: error carried forward.", text=text)
+        return verdict, text, None
     if verdict == "correct":
         if exp is None:
             used = ", ".join(run.method.step(u).label for u in sorted(matched)) or "earlier steps"
@@ -481,6 +508,28 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
 
 
 _MAX_COMBINATIONS = 81
+
+
+def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
+    """See :meth:`StepTrace.written_floor`.  The written values are the student's own unrounded ones rounded,
+    so theirs lie within half a unit of them; over that box the step is unbounded above (it is at the
+    written values) and at least its smallest corner value (checked at the 2**k corners, k <= 6)."""
+    upstream = [u for u in step.inputs if u in run.method.step_ids]
+    written = [u for u in upstream if u in run.reported_si and run.reported_half.get(u)]
+    if not written or len(written) > 6:
+        return None
+    inputs = {**ref_inputs, **{u: run.reported_si[u] for u in upstream if u in run.reported_si}}
+    if any(n not in inputs or inputs[n] is None for n in step.inputs):
+        return None
+    if evaluate_step(step, inputs)[1] != UNBOUNDED:
+        return None
+    corners = []
+    for signs in itertools.product((-1.0, 1.0), repeat=len(written)):
+        value = evaluate_step(step, {**inputs, **{u: inputs[u] + sign * run.reported_half[u]
+                                                  for u, sign in zip(written, signs)}})[0]
+        if value is not None and value > 0:
+            corners.append(value)
+    return (min(corners) if corners else None), frozenset(written)
 
 
 def _candidates(run: _MethodRun, step: Step, ref_inputs: dict):
@@ -858,6 +907,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         rep = sub.results.get(rule.key)
         if rep is not None:
             run.reported_si[step.id] = rep.si
+            run.reported_half[step.id] = half_unit_si(rep.text, rep.unit, step.kind)
         converted = {name: effect.get(step.id) or 0.0 for name, effect in from_hand.items()
                      if effect.get(step.id) and (rep is None or canonical_unit(rep.unit) != hand_units[name])}
         widen, widen_text = _rounding_allowance(run, rule, converted)
