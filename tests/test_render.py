@@ -104,3 +104,14 @@ def test_a_template_compiled_with_other_options_is_never_taken_for_ours(tmp_path
     record = grade_rows(load_spec(shipped_spec("horizon_dip")), good_dip_rows(name="<b>Ann</b>"))
     sheet = ours.sheet(record)
     assert "&lt;b&gt;Ann&lt;/b&gt;" in sheet and "<b>Ann</b>" not in sheet
+
+
+def test_grouped_numbers_never_break_across_lines():
+    # Regression: thousands were grouped with a thin space (U+2009), where a browser may break a line, and
+    # a sheet showed "any value from 169" at the end of one line and "311 up" on the next.
+    from labcheck.report.render import fmt_number
+    from labcheck.report.words import format_fixed
+
+    for text in (format_fixed(169311.0, 0), format_fixed(1234567.891, 3, "m"), fmt_number(6371008.8, 8)):
+        assert "\u2009" not in text and " " not in text.split(" m")[0], text
+        assert "\u202f" in text, text

@@ -56,7 +56,7 @@ def fmt_number(value, digits: int = 5) -> str:
         return "0"
     magnitude = math.floor(math.log10(abs(v)))
     decimals = max(0, digits - 1 - magnitude)
-    return f"{v:,.{decimals}f}".replace(",", "\u2009")
+    return f"{v:,.{decimals}f}".replace(",", "\u202f")
 
 
 # How a file's student was found, when it was not an exact id match (labcheck/reading/identity.py).

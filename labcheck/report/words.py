@@ -126,7 +126,8 @@ def format_dms(angle_rad: float, seconds_decimals: int = 0) -> str:
 
 
 def format_fixed(value, decimals: int, unit: str = "") -> str:
-    """A value already in ``unit`` with a fixed number of decimals, thin-space thousands, and the unit.
+    """A value already in ``unit`` with a fixed number of decimals, thousands grouped by a narrow no-break space
+    (U+202F: a number never breaks across lines on a sheet), and the unit.
 
     Tiny values (a haversine of 6.7e-07) are written in e-notation with the same resolution; a
     missing or non-finite value is a dash.  The one fixed-decimal formatter of sheets and tables.
@@ -138,5 +139,5 @@ def format_fixed(value, decimals: int, unit: str = "") -> str:
         figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
         text = f"{v:.{min(figures, 12) - 1}e}"
     else:
-        text = f"{v:,.{decimals}f}".replace(",", "\u2009")
+        text = f"{v:,.{decimals}f}".replace(",", "\u202f")
     return f"{text} {unit}" if unit and unit != "1" else text
