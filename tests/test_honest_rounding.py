@@ -174,6 +174,8 @@ NOM, CAL, TS, PS, AREA, E, W, ALPHA = 30.0, 30.0032, 20.0, 50.0, 2.6e-6, 200e9, 
 @given(st.integers(0, 2**32))
 @example(446570506)  # forward and back written as 169.311 m both: the precision ratio is only bounded below
 @example(438272209)  # the same at 173.474 m
+@example(2421592561)  # 181.186 and 181.187 m: within half a unit of each other's, so the same
+@example(1744458416)  # the same, a third time
 def test_taped_baseline_lab(seed):
     assert_honest(grade(TAPED, _honest_taped_rows(seed)))
 

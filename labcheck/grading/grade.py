@@ -24,6 +24,7 @@ display unit.
 
 from __future__ import annotations
 
+import decimal
 import itertools
 import math
 import re
@@ -263,6 +264,7 @@ class _MethodRun:
     sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
     own_values: dict = field(default_factory=dict)  # step id -> recomputed from the student's own earlier results
     reported_half: dict = field(default_factory=dict)  # step id -> half a unit in the last digit written [SI]
+    reported_readings: dict = field(default_factory=dict)  # step id -> the Reading the student wrote
     traces: list = field(default_factory=list)  # StepTrace per step, in order (for labcheck tune)
 
     def own_inputs(self, step: Step, ref_inputs: dict) -> dict | None:
@@ -291,7 +293,7 @@ class StepTrace:
     widen: float
     candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
     reported_steps: frozenset  # the method's steps the student reported
-    floor: object = None  # None, a function giving the written-value floor, or it: see written_floor()
+    floor: object = None  # None, a function giving the written-value range, or it: see written_floor()
     _settled: bool = False  # settle() was called: candidates are held as arrays once first needed
     _values: object = None  # then: every candidate's value, as a numpy array
     _used: tuple = ()  # then: every candidate's set of earlier steps
@@ -304,10 +306,10 @@ class StepTrace:
         return self.candidates
 
     def written_floor(self):
-        """When the student's earlier results as written make this step unbounded (a ratio over the
-        difference of two lengths that agree to the last digit written): (the smallest value the step can
-        take with each of them anywhere within half a unit of its last digit, or None when none is finite,
-        the earlier steps used).  An honest value is then any value from that floor up.  None otherwise."""
+        """When the student's earlier results as written make this step unbounded somewhere within half a
+        unit of their last digits (where the student's unrounded values must lie; a ratio over the
+        difference of two lengths written alike): (low, +inf, the earlier steps used), low being the smallest
+        value found, or None when none is finite.  None otherwise."""
         if callable(self.floor):
             self.floor = self.floor()
         return self.floor
@@ -371,10 +373,17 @@ def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]
     found = trace.first_honest(tol, rep, widen)
     if found is not None:
         return _carried_or_correct(trace, found[1], verdicts), found[1]
-    floor = trace.written_floor() if rep > 0 else None
-    if floor is not None and (floor[0] is None or rep >= floor[0] or tol.matches(rep, floor[0], widen)):
-        return _carried_or_correct(trace, floor[1], verdicts), floor[1]
+    span = trace.written_floor()
+    if span is not None and _within(tol, rep, widen, *span[:2]):
+        return _carried_or_correct(trace, span[2], verdicts), span[2]
     return ("missing" if exp is None else "wrong"), None
+
+
+def _within(tol, rep: float, widen: float, low, high) -> bool:
+    """rep within ``tol`` of the range [low, high] (low None: any positive value; high +inf: unbounded)."""
+    if high == math.inf:
+        return rep > 0 and (low is None or rep >= low or tol.matches(rep, low, widen))
+    return (rep >= low or tol.matches(rep, low, widen)) and (rep <= high or tol.matches(rep, high, widen))
 
 
 def rejudge(trace: StepTrace, judged: tuple[str, frozenset | None], verdicts: dict) -> str:
@@ -421,13 +430,15 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
                            "agree to the last digit), so any positive value you report is consistent with them."), None
     if verdict in ("correct", "carried") and matched is not None and trace.first_honest(tol, rep.si, widen) is None:
         # Matched by the floor: the student's earlier values as written make this step unbounded.
-        floor, _ = trace.written_floor()
+        low, _, _ = trace.written_floor()
         labels = [run.method.step(u).label for u in step.inputs if u in matched]
         names = " and ".join(labels) if len(labels) <= 2 else ", ".join(labels[:-1]) + " and " + labels[-1]
-        bound = "any positive value" if floor is None else phrase("any value from {lo} up", lo=_step_value(floor, rule, exp if exp is not None else floor))
-        text = phrase("Your {names} as written agree to their last digit, so this value follows from them only as a "
-                      "bound: {bound} is consistent with them (tolerance {tol}).", names=names, bound=bound,
-                      tol=tol_text)
+        basis = exp if exp is not None else (low if low is not None else rep.si)
+        bound = "any positive value" if low is None else phrase("any value from {lo} up",
+                                                                lo=_step_value(low, rule, basis))
+        text = phrase("Your {names} as written cannot be told apart at the digits you wrote, so this value "
+                      "follows from them only as a bound: {bound} is consistent with them (tolerance {tol}).",
+                      names=names, bound=bound, tol=tol_text)
         if verdict == "carried":
             text = phrase("{text} Some of those values were wrong: error carried forward.", text=text)
         return verdict, text, None
@@ -510,10 +521,39 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
 _MAX_COMBINATIONS = 81
 
 
+_PLAIN_DECIMAL = re.compile(r"^[+-]?\d+(?:\.(\d+))?$")
+
+
+def _box_corner(run: _MethodRun, step: Step, u: str, sign: int) -> float:
+    """The written value of earlier step ``u`` moved by half a unit of its last digit, in SI.
+
+    A plain decimal is moved in decimal and then converted, so that two values written alike land on the
+    same float (181.186 + 0.0005 and 181.187 - 0.0005 are both 181.1865, and their difference exactly 0,
+    where binary arithmetic leaves a few units in the last place and a finite but meaningless ratio)."""
+    reading = run.reported_readings.get(u)
+    m = _PLAIN_DECIMAL.match(reading.text.strip()) if reading is not None else None
+    if m is not None:
+        try:
+            half = decimal.Decimal(5).scaleb(-len(m.group(1) or "") - 1)
+            moved = float(decimal.Decimal(reading.text.strip()) + sign * half)
+            value = float(to_si(moved, reading.unit, run.method.step(u).kind))
+            if math.isfinite(value) and abs(value - run.reported_si[u]) <= 2 * run.reported_half[u]:
+                return value
+        except (ArithmeticError, ValueError, TypeError, KeyError):
+            pass
+    return run.reported_si[u] + sign * run.reported_half[u]
+
+
 def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
     """See :meth:`StepTrace.written_floor`.  The written values are the student's own unrounded ones rounded,
-    so theirs lie within half a unit of them; over that box the step is unbounded above (it is at the
-    written values) and at least its smallest corner value (checked at the 2**k corners, k <= 6)."""
+    so theirs lie within half a unit of them: the step is evaluated at the written values and at the 2**k
+    corners of that box (k <= 6 written inputs).
+
+    Unbounded at the written values or at a corner: every value from the smallest positive corner value up
+    is honest (near the singular point the step grows without bound, and the box minus that point is
+    connected for k >= 2, each half of it holding a corner for k = 1).  Bounded on the box: None, for the
+    spec's tolerance is meant to cover rounding there (widening it by the box let the catalogue's
+    inverted sea-level factor pass, and a dip mean written "6.0" would make a box of 0.1 arcmin)."""
     upstream = [u for u in step.inputs if u in run.method.step_ids]
     written = [u for u in upstream if u in run.reported_si and run.reported_half.get(u)]
     if not written or len(written) > 6:
@@ -521,15 +561,22 @@ def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
     inputs = {**ref_inputs, **{u: run.reported_si[u] for u in upstream if u in run.reported_si}}
     if any(n not in inputs or inputs[n] is None for n in step.inputs):
         return None
-    if evaluate_step(step, inputs)[1] != UNBOUNDED:
-        return None
+    unbounded = evaluate_step(step, inputs)[1] == UNBOUNDED
     corners = []
-    for signs in itertools.product((-1.0, 1.0), repeat=len(written)):
-        value = evaluate_step(step, {**inputs, **{u: inputs[u] + sign * run.reported_half[u]
-                                                  for u, sign in zip(written, signs)}})[0]
-        if value is not None and value > 0:
+    for signs in itertools.product((-1, 1), repeat=len(written)):
+        value, why = evaluate_step(step, {**inputs, **{u: _box_corner(run, step, u, sign)
+                                                       for u, sign in zip(written, signs)}})
+        if why == UNBOUNDED:
+            unbounded = True
+        elif value is None:
+            return None  # the box reaches where the step has no value: nothing safe to say
+        else:
             corners.append(value)
-    return (min(corners) if corners else None), frozenset(written)
+    used = frozenset(written)
+    if unbounded:
+        positive = [v for v in corners if v > 0]
+        return (min(positive) if positive else None), math.inf, used
+    return None  # bounded on the box: the spec's tolerance is meant to cover rounding there
 
 
 def _candidates(run: _MethodRun, step: Step, ref_inputs: dict):
@@ -908,6 +955,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         if rep is not None:
             run.reported_si[step.id] = rep.si
             run.reported_half[step.id] = half_unit_si(rep.text, rep.unit, step.kind)
+            run.reported_readings[step.id] = rep
         converted = {name: effect.get(step.id) or 0.0 for name, effect in from_hand.items()
                      if effect.get(step.id) and (rep is None or canonical_unit(rep.unit) != hand_units[name])}
         widen, widen_text = _rounding_allowance(run, rule, converted)
