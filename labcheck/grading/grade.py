@@ -42,7 +42,7 @@ from labcheck.base.phrase import DMS, Number, ObsValue, Percent, StepDecimals, S
 from labcheck.base.units import canonical_unit, dms_seconds_decimals, from_si, half_unit_si, parse_quantity, to_si
 
 __all__ = ["Chain", "evaluate_chain", "method_inputs", "grade_submission", "unreadable_record", "missing_record",
-           "GENERIC_SLIPS", "safe_id", "StepTrace", "judge"]
+           "GENERIC_SLIPS", "safe_id", "StepTrace", "judge", "rejudge", "step_points"]
 
 
 from labcheck.methods.slips import _FT, GENERIC_SLIPS  # noqa: E402 (the catalogue, which the diagnosis tries)
@@ -263,7 +263,6 @@ class _MethodRun:
     verdicts: dict[str, str] = field(default_factory=dict)
     sigmas: dict = field(default_factory=dict)  # step id -> propagated standard deviation (SI)
     own_values: dict = field(default_factory=dict)  # step id -> recomputed from the student's own earlier results
-    reported_half: dict = field(default_factory=dict)  # step id -> half a unit in the last digit written [SI]
     reported_readings: dict = field(default_factory=dict)  # step id -> the Reading the student wrote
     traces: list = field(default_factory=list)  # StepTrace per step, in order (for labcheck tune)
 
@@ -293,7 +292,7 @@ class StepTrace:
     widen: float
     candidates: object  # ((value, set of earlier steps whose own value it used), ...), or a function giving them
     reported_steps: frozenset  # the method's steps the student reported
-    floor: object = None  # None, a function giving the written-value range, or it: see written_floor()
+    floor: object = None  # None, a function giving the written-value floor, or it: see written_floor()
     _settled: bool = False  # settle() was called: candidates are held as arrays once first needed
     _values: object = None  # then: every candidate's value, as a numpy array
     _used: tuple = ()  # then: every candidate's set of earlier steps
@@ -308,8 +307,8 @@ class StepTrace:
     def written_floor(self):
         """When the student's earlier results as written make this step unbounded somewhere within half a
         unit of their last digits (where the student's unrounded values must lie; a ratio over the
-        difference of two lengths written alike): (low, +inf, the earlier steps used), low being the smallest
-        value found, or None when none is finite.  None otherwise."""
+        difference of two lengths written alike): (low, the earlier steps used), low being the smallest value
+        found, or None when none is finite; any value from low up is then honest.  None otherwise."""
         if callable(self.floor):
             self.floor = self.floor()
         return self.floor
@@ -373,17 +372,10 @@ def judge(tol, trace: StepTrace, verdicts: dict) -> tuple[str, frozenset | None]
     found = trace.first_honest(tol, rep, widen)
     if found is not None:
         return _carried_or_correct(trace, found[1], verdicts), found[1]
-    span = trace.written_floor()
-    if span is not None and _within(tol, rep, widen, *span[:2]):
-        return _carried_or_correct(trace, span[2], verdicts), span[2]
+    floor = trace.written_floor()
+    if floor is not None and rep > 0 and (floor[0] is None or rep >= floor[0] or tol.matches(rep, floor[0], widen)):
+        return _carried_or_correct(trace, floor[1], verdicts), floor[1]
     return ("missing" if exp is None else "wrong"), None
-
-
-def _within(tol, rep: float, widen: float, low, high) -> bool:
-    """rep within ``tol`` of the range [low, high] (low None: any positive value; high +inf: unbounded)."""
-    if high == math.inf:
-        return rep > 0 and (low is None or rep >= low or tol.matches(rep, low, widen))
-    return (rep >= low or tol.matches(rep, low, widen)) and (rep <= high or tol.matches(rep, high, widen))
 
 
 def rejudge(trace: StepTrace, judged: tuple[str, frozenset | None], verdicts: dict) -> str:
@@ -392,6 +384,12 @@ def rejudge(trace: StepTrace, judged: tuple[str, frozenset | None], verdicts: di
     whether the earlier steps it used are now wrong can change (``labcheck tune`` sweeping an earlier step)."""
     verdict, used = judged
     return verdict if used is None else _carried_or_correct(trace, used, verdicts)
+
+
+def step_points(spec: LabSpec, points: float, verdict: str) -> float:
+    """A step's points for its verdict: all when correct, the spec's ``carried_fraction`` when carried,
+    none otherwise (the one rule, for the record and for ``labcheck tune``)."""
+    return round(points * {"correct": 1.0, "carried": spec.carried_fraction}.get(verdict, 0.0), 3)
 
 
 def _carried_or_correct(trace: StepTrace, used, verdicts: dict) -> str:
@@ -430,7 +428,7 @@ def _verdict(run: _MethodRun, rule: StepRule, rep: Reading | None, exp, own, ref
                            "agree to the last digit), so any positive value you report is consistent with them."), None
     if verdict in ("correct", "carried") and matched is not None and trace.first_honest(tol, rep.si, widen) is None:
         # Matched by the floor: the student's earlier values as written make this step unbounded.
-        low, _, _ = trace.written_floor()
+        low, _ = trace.written_floor()
         labels = [run.method.step(u).label for u in step.inputs if u in matched]
         names = " and ".join(labels) if len(labels) <= 2 else ", ".join(labels[:-1]) + " and " + labels[-1]
         basis = exp if exp is not None else (low if low is not None else rep.si)
@@ -500,7 +498,8 @@ def _rounding_allowance(run: _MethodRun, rule: StepRule, converted: dict) -> tup
     for those the step depends on and that the student wrote in another unit than they reported the
     step in (a group that taped in feet and reported in feet converted nothing by hand).  Earlier
     results need no allowance: the student's values as written, and as they would be unrounded, are
-    tried exactly (see :func:`_candidates`).  (b) The reference reduction's model error
+    tried exactly (see :func:`_candidates`), and where what they wrote leaves a step unbounded the
+    written-value floor applies (see :func:`_written_floor`).  (b) The reference reduction's model error
     (``Step.model_error_si``).
     """
     step = rule.step
@@ -524,8 +523,8 @@ _MAX_COMBINATIONS = 81
 _PLAIN_DECIMAL = re.compile(r"^[+-]?\d+(?:\.(\d+))?$")
 
 
-def _box_corner(run: _MethodRun, step: Step, u: str, sign: int) -> float:
-    """The written value of earlier step ``u`` moved by half a unit of its last digit, in SI.
+def _box_corner(run: _MethodRun, u: str, half: float, sign: int) -> float:
+    """The written value of earlier step ``u`` moved by half a unit of its last digit (``half``, SI), in SI.
 
     A plain decimal is moved in decimal and then converted, so that two values written alike land on the
     same float (181.186 + 0.0005 and 181.187 - 0.0005 are both 181.1865, and their difference exactly 0,
@@ -534,14 +533,14 @@ def _box_corner(run: _MethodRun, step: Step, u: str, sign: int) -> float:
     m = _PLAIN_DECIMAL.match(reading.text.strip()) if reading is not None else None
     if m is not None:
         try:
-            half = decimal.Decimal(5).scaleb(-len(m.group(1) or "") - 1)
-            moved = float(decimal.Decimal(reading.text.strip()) + sign * half)
+            written_half = decimal.Decimal(5).scaleb(-len(m.group(1) or "") - 1)  # in the written unit
+            moved = float(decimal.Decimal(reading.text.strip()) + sign * written_half)
             value = float(to_si(moved, reading.unit, run.method.step(u).kind))
-            if math.isfinite(value) and abs(value - run.reported_si[u]) <= 2 * run.reported_half[u]:
+            if math.isfinite(value) and abs(value - run.reported_si[u]) <= 2 * half:
                 return value
         except (ArithmeticError, ValueError, TypeError, KeyError):
             pass
-    return run.reported_si[u] + sign * run.reported_half[u]
+    return run.reported_si[u] + sign * half
 
 
 def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
@@ -555,7 +554,9 @@ def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
     spec's tolerance is meant to cover rounding there (widening it by the box let the catalogue's
     inverted sea-level factor pass, and a dip mean written "6.0" would make a box of 0.1 arcmin)."""
     upstream = [u for u in step.inputs if u in run.method.step_ids]
-    written = [u for u in upstream if u in run.reported_si and run.reported_half.get(u)]
+    halves = {u: half_unit_si(r.text, r.unit, run.method.step(u).kind) for u in upstream
+              if (r := run.reported_readings.get(u)) is not None}
+    written = [u for u in upstream if halves.get(u)]
     if not written or len(written) > 6:
         return None
     inputs = {**ref_inputs, **{u: run.reported_si[u] for u in upstream if u in run.reported_si}}
@@ -564,7 +565,7 @@ def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
     unbounded = evaluate_step(step, inputs)[1] == UNBOUNDED
     corners = []
     for signs in itertools.product((-1, 1), repeat=len(written)):
-        value, why = evaluate_step(step, {**inputs, **{u: _box_corner(run, step, u, sign)
+        value, why = evaluate_step(step, {**inputs, **{u: _box_corner(run, u, halves[u], sign)
                                                        for u, sign in zip(written, signs)}})
         if why == UNBOUNDED:
             unbounded = True
@@ -572,10 +573,9 @@ def _written_floor(run: _MethodRun, step: Step, ref_inputs: dict):
             return None  # the box reaches where the step has no value: nothing safe to say
         else:
             corners.append(value)
-    used = frozenset(written)
     if unbounded:
         positive = [v for v in corners if v > 0]
-        return (min(positive) if positive else None), math.inf, used
+        return (min(positive) if positive else None), frozenset(written)
     return None  # bounded on the box: the spec's tolerance is meant to cover rounding there
 
 
@@ -954,7 +954,6 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         rep = sub.results.get(rule.key)
         if rep is not None:
             run.reported_si[step.id] = rep.si
-            run.reported_half[step.id] = half_unit_si(rep.text, rep.unit, step.kind)
             run.reported_readings[step.id] = rep
         converted = {name: effect.get(step.id) or 0.0 for name, effect in from_hand.items()
                      if effect.get(step.id) and (rep is None or canonical_unit(rep.unit) != hand_units[name])}
@@ -964,7 +963,6 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
         if own is not None:
             run.own_values[step.id] = own
         run.verdicts[step.id] = verdict
-        factor = {"correct": 1.0, "carried": spec.carried_fraction}.get(verdict, 0.0)
         show_own = own is not None and (exp is None or not rule.tolerance.matches(own, exp))
         records.append({
             "id": rule.key,
@@ -985,7 +983,7 @@ def _grade_method(method: Method, sub: Submission, spec: LabSpec,
             "sigma": _display(sigmas.get(step.id), rule.unit, step.kind) if sigmas.get(step.id) else None,
             "decimals": _decimals(rule, exp if exp is not None else (rep.si if rep else None)),
             "verdict": verdict,
-            "points": round(rule.points * factor, 3),
+            "points": step_points(spec, rule.points, verdict),
             "max_points": rule.points,
             "diagnosis": diagnosis,
             "explanation": explanation,

@@ -15,7 +15,7 @@ import re
 import statistics
 from dataclasses import dataclass
 
-from labcheck.grading.grade import grade_submission, judge, rejudge
+from labcheck.grading.grade import grade_submission, judge, rejudge, step_points
 from labcheck.model.spec import AccuracyRule, LabSpec, Tolerance
 from labcheck.base.phrase import Number, Value, phrase
 from labcheck.base.units import parse_quantity
@@ -75,10 +75,8 @@ def tune(spec: LabSpec, submissions: list) -> TuneReport:
         pcts = [100.0 * s / m for s, m in zip(scores, maxes) if m]
         return (statistics.fmean(pcts) if pcts else 0.0), sum(p >= pass_pct - 1e-9 for p in pcts)
 
-    factor = {"correct": 1.0, "carried": spec.carried_fraction}
-
     def change(t, verdict, old):
-        return round(t.points * factor.get(verdict, 0.0), 3) - old
+        return step_points(spec, t.points, verdict) - old
 
     # Per submission and method: its traces in order, each with the points the sheet gave and the verdict
     # and score change under the spec's own tolerances.  A step is judged on its own tolerance and the
