@@ -21,7 +21,7 @@ from labcheck.report.outputs import run_time
 from labcheck.base.resources import templates_dir
 from labcheck.model.spec import LabSpec
 from labcheck.base.units import from_si, to_si
-from labcheck.report.words import format_fixed
+from labcheck.report.words import format_fixed, grouped
 
 __all__ = ["Renderer", "fmt_number", "VERDICT_WORDS"]
 
@@ -56,7 +56,7 @@ def fmt_number(value, digits: int = 5) -> str:
         return "0"
     magnitude = math.floor(math.log10(abs(v)))
     decimals = max(0, digits - 1 - magnitude)
-    return f"{v:,.{decimals}f}".replace(",", "\u202f")
+    return grouped(v, decimals)
 
 
 # How a file's student was found, when it was not an exact id match (labcheck/reading/identity.py).
@@ -144,7 +144,8 @@ class _BytecodeCache(jinja2.FileSystemBytecodeCache):
 
 def _bytecode_cache():
     """The compiled-template cache, in jinja2's per-user folder under the system's temporary folder (made
-    0700 and checked to be the user's; entries keyed by each template's name and source): compiling the
+    0700 and checked to be the user's; entries keyed by each template's name and source and by what it is
+    compiled with, see :class:`_BytecodeCache`): compiling the
     four templates cost 0.09 s in every run and in every worker.  None where no such folder can be had."""
     try:
         return _BytecodeCache()

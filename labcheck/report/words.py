@@ -13,7 +13,7 @@ from datetime import datetime, timezone
 from labcheck.base.phrase import DMS, Clock, Number, ObsValue, Percent, Phrase, StepDecimals, StepValue, Value
 from labcheck.base.units import UNITS, from_si
 
-__all__ = ["word", "worded", "step_decimals", "format_value", "format_fixed", "format_dms"]
+__all__ = ["word", "worded", "step_decimals", "format_value", "format_fixed", "format_dms", "grouped"]
 
 _TYPES = (Phrase, Value, StepValue, StepDecimals, ObsValue, Percent, Number, DMS, Clock)
 _TYPE_SET = frozenset(_TYPES)
@@ -126,8 +126,8 @@ def format_dms(angle_rad: float, seconds_decimals: int = 0) -> str:
 
 
 def format_fixed(value, decimals: int, unit: str = "") -> str:
-    """A value already in ``unit`` with a fixed number of decimals, thousands grouped by a narrow no-break space
-    (U+202F: a number never breaks across lines on a sheet), and the unit.
+    """A value already in ``unit`` with a fixed number of decimals, thousands grouped (:func:`grouped`), and
+    the unit.
 
     Tiny values (a haversine of 6.7e-07) are written in e-notation with the same resolution; a
     missing or non-finite value is a dash.  The one fixed-decimal formatter of sheets and tables.
@@ -139,5 +139,11 @@ def format_fixed(value, decimals: int, unit: str = "") -> str:
         figures = max(1, decimals + math.floor(math.log10(abs(v))) + 1)
         text = f"{v:.{min(figures, 12) - 1}e}"
     else:
-        text = f"{v:,.{decimals}f}".replace(",", "\u202f")
+        text = grouped(v, decimals)
     return f"{text} {unit}" if unit and unit != "1" else text
+
+
+def grouped(v: float, decimals: int) -> str:
+    """``v`` with ``decimals`` decimals and its thousands grouped by a narrow no-break space (U+202F), so a
+    number never breaks across lines on a sheet."""
+    return f"{v:,.{decimals}f}".replace(",", "\u202f")
